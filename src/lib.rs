@@ -33,15 +33,21 @@
 //! local machinery codes and licensed engineering practice.
 
 pub mod design;
+pub mod fsutil;
 pub mod input;
 pub mod kinematics;
 pub mod linkage;
 pub mod report;
+pub mod scenario;
+pub mod synthesis;
+pub mod task;
 
 pub use design::{load_designs, Design, DesignFile};
 pub use input::InputError;
 pub use kinematics::analysis::{analyse, Analysis, AnalysisOptions};
-pub use kinematics::position::{closed_form, solve_position, NewtonOptions, Pose, PositionSolve, PositionStatus};
+pub use kinematics::position::{
+    closed_form, solve_position, NewtonOptions, Pose, PositionSolve, PositionStatus,
+};
 pub use kinematics::range::InputRange;
 pub use kinematics::rates::{rates, Rates};
 pub use kinematics::sweep::{sweep, Sweep, SweepOptions, TraceEnd, Tracer};

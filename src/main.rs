@@ -4,12 +4,19 @@
 
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
+use std::sync::atomic::{AtomicBool, Ordering};
+use std::sync::Arc;
+use std::time::Duration;
 
 use anyhow::Context as _;
 use clap::{Parser, Subcommand};
+use indicatif::{ProgressBar, ProgressStyle};
 
 use crankwright::report::check::CheckReport;
 use crankwright::report::table::{rows_to_csv, sweep_rows};
+use crankwright::scenario::load_scenario;
+use crankwright::synthesis::output::{write_results, Summary};
+use crankwright::synthesis::{synthesize, EngineOptions, Observer, Progress};
 use crankwright::{load_designs, Design, InputError};
 
 /// Dimensional synthesis and verification of planar four-bar linkages.
@@ -54,6 +61,30 @@ enum Command {
         #[arg(long)]
         json: bool,
     },
+    /// Search for designs that do what a scenario asks, verify and rank them, and write
+    /// designs.yaml and summary.json into the output folder.
+    Synth {
+        /// Scenario file (YAML).
+        scenario: PathBuf,
+        /// Output folder (default: out/<scenario file stem>).
+        #[arg(long)]
+        out: Option<PathBuf>,
+        /// Random seed (overrides the scenario's search.seed).
+        #[arg(long)]
+        seed: Option<u64>,
+        /// Random starts (overrides search.starts).
+        #[arg(long)]
+        starts: Option<usize>,
+        /// Seconds before the search stops with what it has (overrides search.time_limit).
+        #[arg(long = "time-limit")]
+        time_limit: Option<f64>,
+        /// Worker threads (default: one per core).
+        #[arg(long)]
+        threads: Option<usize>,
+        /// Write into a non-empty output folder.
+        #[arg(long)]
+        force: bool,
+    },
 }
 
 /// A failure that maps to an exit code.
@@ -79,9 +110,125 @@ fn pick(path: &Path, index: usize) -> Result<Design, Failure> {
     Ok(designs.swap_remove(index - 1))
 }
 
+struct Bar(ProgressBar);
+
+impl Observer for Bar {
+    fn progress(&self, p: &Progress) {
+        if self.0.length() != Some(p.total as u64) {
+            self.0.set_length(p.total as u64);
+            self.0.set_position(0);
+        }
+        self.0.set_position(p.done as u64);
+        self.0.set_message(match p.best_error {
+            Some(e) => format!("{}: best error {e:.6e}", p.phase),
+            None => format!("{}: no design accepted yet", p.phase),
+        });
+    }
+}
+
+#[allow(clippy::too_many_arguments)] // reason: one value per command-line flag
+fn synth(
+    scenario_path: &Path,
+    out: Option<PathBuf>,
+    seed: Option<u64>,
+    starts: Option<usize>,
+    time_limit: Option<f64>,
+    threads: Option<usize>,
+    force: bool,
+) -> anyhow::Result<ExitCode> {
+    let mut scenario = load_scenario(scenario_path).map_err(Failure::from)?;
+    if let Some(s) = seed {
+        scenario.search.seed = s;
+    }
+    if let Some(n) = starts {
+        if n == 0 {
+            return Err(Failure::Usage("--starts 0: expected at least 1".into()).into());
+        }
+        scenario.search.starts = n;
+    }
+    if let Some(t) = time_limit {
+        if !(t.is_finite() && t > 0.0) {
+            return Err(
+                Failure::Usage(format!("--time-limit {t}: expected positive seconds")).into(),
+            );
+        }
+        scenario.search.time_limit = t;
+    }
+    if threads == Some(0) {
+        return Err(Failure::Usage("--threads 0: expected at least 1".into()).into());
+    }
+    let task = crankwright::task::build(&scenario)
+        .map_err(|e| Failure::Usage(format!("{}: {e}", scenario_path.display())))?;
+    let dir = out.unwrap_or_else(|| {
+        let stem = scenario_path
+            .file_stem()
+            .map_or_else(|| "run".into(), |s| s.to_string_lossy().into_owned());
+        PathBuf::from("out").join(stem.trim_end_matches(".scenario"))
+    });
+    if dir.exists() {
+        let non_empty = std::fs::read_dir(&dir)
+            .with_context(|| format!("reading {}", dir.display()))?
+            .next()
+            .is_some();
+        if non_empty && !force {
+            return Err(Failure::Usage(format!(
+                "{}: output folder is not empty; choose another --out or pass --force",
+                dir.display()
+            ))
+            .into());
+        }
+    }
+    std::fs::create_dir_all(&dir).with_context(|| format!("creating {}", dir.display()))?;
+    let stop = Arc::new(AtomicBool::new(false));
+    {
+        let stop = Arc::clone(&stop);
+        // A second handler cannot be installed (e.g. in tests); the time limit still applies.
+        let _ = ctrlc::set_handler(move || stop.store(true, Ordering::SeqCst));
+    }
+    let s = &scenario.search;
+    let options = EngineOptions {
+        seed: s.seed,
+        starts: s.starts,
+        time_limit: Duration::from_secs_f64(s.time_limit),
+        keep: s.keep,
+        threads,
+        ..EngineOptions::default()
+    };
+    let bar = ProgressBar::new(s.starts as u64);
+    bar.set_style(
+        ProgressStyle::with_template("{spinner} [{elapsed_precise}] {bar:30} {pos}/{len} {msg}")
+            .expect("static template is valid"),
+    );
+    let outcome = synthesize(task.as_ref(), &options, &stop, &Bar(bar.clone()));
+    bar.finish_and_clear();
+    let summary = Summary::new(&scenario, &outcome, s.seed, s.starts);
+    write_results(&dir, &scenario, &outcome, &summary)
+        .with_context(|| format!("writing results into {}", dir.display()))?;
+    print!("{}", crankwright::report::summary_text(&summary));
+    println!("written: {}", dir.display());
+    Ok(if outcome.designs.is_empty() {
+        ExitCode::from(1)
+    } else {
+        ExitCode::SUCCESS
+    })
+}
+
 fn run(cli: Cli) -> anyhow::Result<ExitCode> {
     match cli.command {
-        Command::Check { design, index, json } => {
+        Command::Synth {
+            scenario,
+            out,
+            seed,
+            starts,
+            time_limit,
+            threads,
+            force,
+        } => synth(&scenario, out, seed, starts, time_limit, threads, force),
+        Command::Check {
+            design,
+            index,
+            json,
+        } => {
             let d = pick(&design, index)?;
             let report = CheckReport::new(&d);
             if json {
@@ -107,13 +254,14 @@ fn run(cli: Cli) -> anyhow::Result<ExitCode> {
             json,
         } => {
             if !(step.is_finite() && step > 0.0 && step <= 360.0) {
-                return Err(Failure::Usage(format!(
-                    "--step {step}: expected degrees in (0, 360]"
-                ))
-                .into());
+                return Err(
+                    Failure::Usage(format!("--step {step}: expected degrees in (0, 360]")).into(),
+                );
             }
             if !speed.is_finite() {
-                return Err(Failure::Usage(format!("--speed {speed}: expected a finite rpm")).into());
+                return Err(
+                    Failure::Usage(format!("--speed {speed}: expected a finite rpm")).into(),
+                );
             }
             let d = pick(&design, index)?;
             let rows = sweep_rows(&d.linkage, step, speed);
@@ -122,11 +270,23 @@ fn run(cli: Cli) -> anyhow::Result<ExitCode> {
                     .with_context(|| format!("writing {}", path.display()))?;
             }
             if json {
-                println!("{}", serde_json::to_string_pretty(&serde_json::json!({ "rows": rows }))?);
+                println!(
+                    "{}",
+                    serde_json::to_string_pretty(&serde_json::json!({ "rows": rows }))?
+                );
             } else {
                 println!(
                     "{:>9} {:>9} {:>9} {:>8} {:>11} {:>11} {:>10} {:>10} {:>11} {:>11}",
-                    "theta2", "theta3", "theta4", "mu", "cx", "cy", "omega3", "omega4", "alpha3", "alpha4"
+                    "theta2",
+                    "theta3",
+                    "theta4",
+                    "mu",
+                    "cx",
+                    "cy",
+                    "omega3",
+                    "omega4",
+                    "alpha3",
+                    "alpha4"
                 );
                 for r in &rows {
                     println!(
@@ -135,7 +295,10 @@ fn run(cli: Cli) -> anyhow::Result<ExitCode> {
                     );
                 }
                 if rows.is_empty() {
-                    eprintln!("{}: the linkage cannot be assembled at any crank angle", design.display());
+                    eprintln!(
+                        "{}: the linkage cannot be assembled at any crank angle",
+                        design.display()
+                    );
                     return Ok(ExitCode::from(1));
                 }
             }

@@ -297,13 +297,21 @@ mod tests {
             }
         };
         let beta = (crank(r3 + r2, true) - crank(r3 - r2, false)).rem_euclid(TAU);
-        assert_relative_eq!(tr.forward.min(tr.back), beta.min(TAU - beta), epsilon = 1e-9);
+        assert_relative_eq!(
+            tr.forward.min(tr.back),
+            beta.min(TAU - beta),
+            epsilon = 1e-9
+        );
         assert_relative_eq!(tr.forward + tr.back, TAU, epsilon = 1e-12);
     }
 
     #[test]
     fn transmission_extremes_match_sampling() {
-        for l in [bar(7.0, 2.0, 9.0, 6.0), bar(5.0, 4.0, 9.0, 6.0), bar(7.0, 6.0, 2.0, 9.0)] {
+        for l in [
+            bar(7.0, 2.0, 9.0, 6.0),
+            bar(5.0, 4.0, 9.0, 6.0),
+            bar(7.0, 6.0, 2.0, 9.0),
+        ] {
             let range = InputRange::of(&l);
             let ts = transmission_summary(&l, &range).unwrap();
             let mut lo = f64::INFINITY;
@@ -317,8 +325,14 @@ mod tests {
             }
             // Sampling only approaches a toggle (where mu is 0 or 180 deg) like the square
             // root of the distance, hence the looser lower bound.
-            assert!(ts.min.0 <= lo + 1e-12 && ts.min.0 > lo - 0.03, "{l:?} {ts:?} {lo}");
-            assert!(ts.max.0 >= hi - 1e-12 && ts.max.0 < hi + 0.03, "{l:?} {ts:?} {hi}");
+            assert!(
+                ts.min.0 <= lo + 1e-12 && ts.min.0 > lo - 0.03,
+                "{l:?} {ts:?} {lo}"
+            );
+            assert!(
+                ts.max.0 >= hi - 1e-12 && ts.max.0 < hi + 0.03,
+                "{l:?} {ts:?} {hi}"
+            );
         }
     }
 }

@@ -198,7 +198,10 @@ mod tests {
                 assert_eq!(range.contains(phi), assembles_at(&l, t2), "{l:?} at {phi}");
             }
         }
-        assert_eq!(InputRange::of(&bar(7.0, 2.0, 9.0, 6.0)), InputRange::FullTurn);
+        assert_eq!(
+            InputRange::of(&bar(7.0, 2.0, 9.0, 6.0)),
+            InputRange::FullTurn
+        );
         assert_eq!(InputRange::of(&bar(10.0, 2.0, 1.5, 1.5)), InputRange::None);
     }
 }

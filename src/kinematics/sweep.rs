@@ -276,7 +276,10 @@ pub fn sweep(linkage: &FourBar, step: f64, options: &SweepOptions) -> Sweep {
         InputRange::None => {}
         InputRange::FullTurn => {
             let n = (TAU / step).round() as usize;
-            let st: Vec<f64> = (0..n).map(|k| k as f64 * step).filter(|t| *t < TAU - 1e-12).collect();
+            let st: Vec<f64> = (0..n)
+                .map(|k| k as f64 * step)
+                .filter(|t| *t < TAU - 1e-12)
+                .collect();
             let poses = run(&mut tracer, st);
             branches.push(Branch {
                 assembly: asm,
@@ -290,10 +293,7 @@ pub fn sweep(linkage: &FourBar, step: f64, options: &SweepOptions) -> Sweep {
                 let lo = t1 + arc.start.phi;
                 let hi = t1 + arc.end.phi;
                 let poses = run(&mut tracer, stations(lo, hi));
-                let tp = (
-                    tracer.pose_at(lo, asm),
-                    tracer.pose_at(hi, asm),
-                );
+                let tp = (tracer.pose_at(lo, asm), tracer.pose_at(hi, asm));
                 branches.push(Branch {
                     assembly: asm,
                     poses,
@@ -318,10 +318,10 @@ pub fn sweep(linkage: &FourBar, step: f64, options: &SweepOptions) -> Sweep {
 mod tests {
     use super::*;
     use crate::kinematics::range::wrap_pi;
-    use std::f64::consts::PI;
     use crate::linkage::CouplerPoint;
     use approx::assert_relative_eq;
     use nalgebra::Point2;
+    use std::f64::consts::PI;
 
     fn bar(r1: f64, r2: f64, r3: f64, r4: f64, asm: Assembly) -> FourBar {
         FourBar::new(

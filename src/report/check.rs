@@ -104,7 +104,10 @@ fn toggle(t: &Toggle, theta1: f64) -> ToggleRecord {
 impl CheckReport {
     /// Analyses `design` and gathers the report.
     pub fn new(design: &Design) -> Self {
-        Self::from_analysis(design, &analyse(&design.linkage, &AnalysisOptions::default()))
+        Self::from_analysis(
+            design,
+            &analyse(&design.linkage, &AnalysisOptions::default()),
+        )
     }
 
     /// Gathers the report from an analysis already made.

@@ -17,3 +17,45 @@ pub fn deg_wrapped(rad: f64) -> f64 {
         d
     }
 }
+
+/// A short readable summary of a synthesis run: the run, rejections and the ranked designs.
+pub fn summary_text(s: &crate::synthesis::output::Summary) -> String {
+    use std::fmt::Write as _;
+    let mut t = String::new();
+    let _ = writeln!(
+        t,
+        "{} ({} generation): {} of {} starts in {:.1} s, {} evaluations{}",
+        s.name,
+        s.task,
+        s.starts_run,
+        s.starts,
+        s.seconds,
+        s.evaluations,
+        match &s.stop_reason {
+            Some(r) => format!(", stopped early ({r})"),
+            None => String::new(),
+        }
+    );
+    if !s.rejected.is_empty() {
+        let parts: Vec<String> = s.rejected.iter().map(|(k, v)| format!("{k} {v}")).collect();
+        let _ = writeln!(t, "rejected: {}", parts.join(", "));
+    }
+    if s.designs.is_empty() {
+        let _ = writeln!(t, "no design met the requirements");
+    }
+    for d in &s.designs {
+        let m = |k: &str| d.measures.get(k).and_then(serde_json::Value::as_f64);
+        let err = match (m("sum_squared_error"), m("rms_error"), m("max_error")) {
+            (Some(a), Some(b), Some(c)) => format!("sum sq {a:.4e}, rms {b:.4e}, max {c:.4e}"),
+            (_, Some(b), Some(c)) => format!("rms {b:.4e}, max {c:.4e}"),
+            _ => String::new(),
+        };
+        let _ = writeln!(
+            t,
+            "#{:<2} {err}; {}, min transmission {:.1} deg, link ratio {:.2}",
+            d.rank, d.grashof, d.min_transmission, d.length_ratio
+        );
+    }
+    let _ = writeln!(t, "note: {}", crate::SAFETY_NOTE);
+    t
+}

@@ -1,0 +1,359 @@
+//! Path generation: carry the coupler point through target points, with prescribed or free
+//! crank timing.
+//!
+//! Variables (internal units): the [`Layout`] part (pivots, `r2, r3, r4, p, q`), then for
+//! free timing the first crank angle and the positive increments to each next target (so the
+//! order is built in), for relative timing the first crank angle only. Residuals per target:
+//! the coupler point's miss `C(phi_i) - P_i` and a weighted assembly violation; then the
+//! layout's penalties and, for free timing, a penalty on increments adding up to a turn.
+//! Error measure: `sum |C(phi_i) - P_i|^2` (the measure of most published benchmark tables),
+//! also reported as RMS and max distance.
+
+use std::f64::consts::TAU;
+
+use nalgebra::{DMatrix, Point2};
+use rand::Rng;
+use rand_chacha::ChaCha8Rng;
+
+use super::check::check_motion;
+use super::layout::{Layout, MIN_INCREMENT, PENALTY_WEIGHT};
+use super::{Frame, Mode, Rejection, Task, Verified};
+use crate::kinematics::sweep::SweepOptions;
+use crate::linkage::Assembly;
+use crate::scenario::{Limits, PathSpec, PathTiming};
+
+#[derive(Debug, Clone, PartialEq)]
+enum Timing {
+    Free,
+    /// Crank angles as given (from the ground line, unwrapped in running order).
+    Absolute(Vec<f64>),
+    /// Offsets of each crank angle from the first.
+    Relative(Vec<f64>),
+}
+
+/// The path-generation task.
+#[derive(Debug, Clone)]
+pub struct PathTask {
+    frame: Frame,
+    layout: Layout,
+    targets: Vec<Point2<f64>>,
+    user_targets: Vec<Point2<f64>>,
+    timing: Timing,
+    limits: Limits,
+    sweep: SweepOptions,
+    /// Chord lengths between consecutive targets, normalised to sum 1 (for timing guesses).
+    chords: Vec<f64>,
+}
+
+/// Unwraps prescribed crank angles into running order: the direction is that of the first
+/// step (taken the short way round), and every later step is taken in that direction.
+pub fn unwrap_running(angles: &[f64]) -> Vec<f64> {
+    if angles.len() < 2 {
+        return angles.to_vec();
+    }
+    let first = crate::kinematics::range::wrap_pi(angles[1] - angles[0]);
+    let dir = if first >= 0.0 { 1.0 } else { -1.0 };
+    let mut out = vec![angles[0]];
+    for w in angles.windows(2) {
+        let step = ((w[1] - w[0]) * dir).rem_euclid(TAU) * dir;
+        out.push(out[out.len() - 1] + step);
+    }
+    out
+}
+
+impl PathTask {
+    /// The task for `spec` within `limits`.
+    pub fn new(spec: &PathSpec, limits: &Limits) -> Self {
+        let frame = Frame::of(&spec.points);
+        let targets: Vec<_> = spec.points.iter().map(|p| frame.to_internal(*p)).collect();
+        let timing = match &spec.timing {
+            PathTiming::Free => Timing::Free,
+            PathTiming::Absolute(a) => Timing::Absolute(unwrap_running(a)),
+            PathTiming::Relative(a) => {
+                let u = unwrap_running(a);
+                Timing::Relative(u.iter().map(|v| v - u[0]).collect())
+            }
+        };
+        let mut chords: Vec<f64> = targets.windows(2).map(|w| (w[1] - w[0]).norm()).collect();
+        let total: f64 = chords.iter().sum();
+        for c in &mut chords {
+            *c /= total.max(1e-300);
+        }
+        PathTask {
+            frame,
+            layout: Layout::new(limits, &frame, true),
+            targets,
+            user_targets: spec.points.clone(),
+            timing,
+            limits: limits.clone(),
+            sweep: SweepOptions::default(),
+            chords,
+        }
+    }
+
+    /// The internal frame (scaling) of the task.
+    pub fn frame(&self) -> &Frame {
+        &self.frame
+    }
+
+    fn n(&self) -> usize {
+        self.targets.len()
+    }
+
+    fn timing_dim(&self) -> usize {
+        match self.timing {
+            Timing::Free => self.n(),
+            Timing::Absolute(_) => 0,
+            Timing::Relative(_) => 1,
+        }
+    }
+
+    /// Crank angles from the ground line at the targets for variables `x`.
+    pub fn crank_angles(&self, x: &[f64], mode: Mode) -> Vec<f64> {
+        let k = self.layout.dim();
+        match &self.timing {
+            Timing::Absolute(a) => a.clone(),
+            Timing::Relative(d) => d.iter().map(|v| x[k] + v).collect(),
+            Timing::Free => {
+                let dir = f64::from(mode.direction);
+                let mut phi = x[k];
+                let mut out = Vec::with_capacity(self.n());
+                out.push(phi);
+                for i in 1..self.n() {
+                    phi += dir * x[k + i];
+                    out.push(phi);
+                }
+                out
+            }
+        }
+    }
+
+    fn residuals_at(&self, x: &[f64], phis: &[f64], assembly: Assembly, out: &mut [f64]) {
+        let g = self.layout.geometry(x);
+        for (i, (t, phi)) in self.targets.iter().zip(phis).enumerate() {
+            let s = g.soft_position(*phi, assembly);
+            let c = g.coupler_point(&s);
+            out[3 * i] = c.x - t.x;
+            out[3 * i + 1] = c.y - t.y;
+            out[3 * i + 2] = PENALTY_WEIGHT * s.violation;
+        }
+        let base = 3 * self.n();
+        self.layout
+            .penalties(&g, &mut out[base..base + Layout::N_PENALTIES]);
+        if matches!(self.timing, Timing::Free) {
+            let k = self.layout.dim();
+            let total: f64 = x[k + 1..].iter().sum();
+            out[base + Layout::N_PENALTIES] = PENALTY_WEIGHT * (total - TAU).max(0.0);
+        }
+    }
+}
+
+impl Task for PathTask {
+    fn kind(&self) -> &'static str {
+        "path"
+    }
+
+    fn dim(&self) -> usize {
+        self.layout.dim() + self.timing_dim()
+    }
+
+    fn n_residuals(&self) -> usize {
+        3 * self.n() + Layout::N_PENALTIES + usize::from(matches!(self.timing, Timing::Free))
+    }
+
+    fn bounds(&self) -> (Vec<f64>, Vec<f64>) {
+        let (mut a, mut b) = self.layout.bounds();
+        match self.timing {
+            Timing::Free => {
+                let (ta, tb) = Layout::timing_bounds(self.n());
+                a.extend(ta);
+                b.extend(tb);
+            }
+            Timing::Relative(_) => {
+                a.push(-TAU);
+                b.push(2.0 * TAU);
+            }
+            Timing::Absolute(_) => {}
+        }
+        (a, b)
+    }
+
+    fn sample(&self, rng: &mut ChaCha8Rng) -> (Vec<f64>, Mode) {
+        let mut x = self.layout.sample(rng);
+        let assembly = if rng.random_bool(0.5) {
+            Assembly::Open
+        } else {
+            Assembly::Crossed
+        };
+        let mut direction = 1;
+        match self.timing {
+            Timing::Free => {
+                direction = if rng.random_bool(0.5) { 1 } else { -1 };
+                x.push(rng.random_range(0.0..TAU));
+                // Crank increments roughly proportional to the chords between targets.
+                let total = rng.random_range(0.25..0.95) * TAU;
+                for c in &self.chords {
+                    let jitter = rng.random_range(0.5..1.5);
+                    x.push((total * c * jitter).max(MIN_INCREMENT));
+                }
+            }
+            Timing::Relative(_) => x.push(rng.random_range(0.0..TAU)),
+            Timing::Absolute(_) => {}
+        }
+        (
+            x,
+            Mode {
+                assembly,
+                direction,
+            },
+        )
+    }
+
+    fn residuals(&self, x: &[f64], mode: Mode, out: &mut [f64]) {
+        let phis = self.crank_angles(x, mode);
+        self.residuals_at(x, &phis, mode.assembly, out);
+    }
+
+    fn jacobian(&self, x: &[f64], mode: Mode, r0: &[f64], out: &mut DMatrix<f64>) {
+        let Timing::Free = self.timing else {
+            return super::fd_jacobian(self, x, mode, r0, out);
+        };
+        // Layout columns by forward differences; the timing columns by one grouped evaluation
+        // (each crank angle moves only its own target's rows) and the chain rule through the
+        // cumulative increments.
+        let k = self.layout.dim();
+        let m = self.n_residuals();
+        let mut xp = x.to_vec();
+        let mut r = vec![0.0; m];
+        let phis = self.crank_angles(x, mode);
+        for j in 0..k {
+            let h = super::fd_step(x[j]);
+            xp[j] = x[j] + h;
+            self.residuals_at(&xp, &phis, mode.assembly, &mut r);
+            xp[j] = x[j];
+            for i in 0..m {
+                out[(i, j)] = (r[i] - r0[i]) / h;
+            }
+        }
+        let h = 1e-7;
+        let shifted: Vec<f64> = phis.iter().map(|p| p + h).collect();
+        self.residuals_at(x, &shifted, mode.assembly, &mut r);
+        let n = self.n();
+        // d r_i / d phi_i for each target's three rows.
+        let dphi: Vec<[f64; 3]> = (0..n)
+            .map(|i| {
+                let mut d = [0.0; 3];
+                for (c, v) in d.iter_mut().enumerate() {
+                    *v = (r[3 * i + c] - r0[3 * i + c]) / h;
+                }
+                d
+            })
+            .collect();
+        let dir = f64::from(mode.direction);
+        for j in 0..n {
+            for i in 0..m {
+                out[(i, k + j)] = 0.0;
+            }
+            // phi_i = x[k] + dir * sum_{l=1..i} x[k + l].
+            for (i, d) in dphi.iter().enumerate() {
+                let w = if j == 0 {
+                    1.0
+                } else if i >= j {
+                    dir
+                } else {
+                    0.0
+                };
+                if w != 0.0 {
+                    for c in 0..3 {
+                        out[(3 * i + c, k + j)] = w * d[c];
+                    }
+                }
+            }
+        }
+        // Increment-sum penalty row.
+        let row = 3 * n + Layout::N_PENALTIES;
+        let total: f64 = x[k + 1..].iter().sum();
+        let active = total > TAU;
+        for j in 1..n {
+            out[(row, k + j)] = if active { PENALTY_WEIGHT } else { 0.0 };
+        }
+    }
+
+    fn verify(&self, x: &[f64], mode: Mode) -> Result<Verified, Rejection> {
+        let g = self.layout.geometry(x);
+        let internal = g.linkage(mode.assembly).ok_or(Rejection::Degenerate)?;
+        let linkage = self.frame.linkage_to_user(&internal);
+        let phis = self.crank_angles(x, mode);
+        let check = check_motion(&linkage, &phis, &self.limits, &self.sweep)?;
+        let reached: Vec<Point2<f64>> = check
+            .poses
+            .iter()
+            .map(|p| linkage.coupler_point_at(p.theta2, p.theta3))
+            .collect();
+        let d2: Vec<f64> = reached
+            .iter()
+            .zip(&self.user_targets)
+            .map(|(a, b)| (a - b).norm_squared())
+            .collect();
+        let sse: f64 = d2.iter().sum();
+        let rms = (sse / d2.len() as f64).sqrt();
+        let max = d2.iter().copied().fold(0.0, f64::max).sqrt();
+        let mut measures = serde_json::Map::new();
+        measures.insert("sum_squared_error".into(), sse.into());
+        measures.insert("rms_error".into(), rms.into());
+        measures.insert("max_error".into(), max.into());
+        Ok(Verified {
+            grashof: linkage.grashof(),
+            linkage,
+            crank_angles: phis,
+            error: sse,
+            min_transmission: check.min_transmission,
+            measures,
+            reached,
+        })
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use approx::assert_relative_eq;
+
+    #[test]
+    fn unwrap_running_keeps_direction() {
+        let d = |v: &[f64]| v.iter().map(|a| a.to_radians()).collect::<Vec<_>>();
+        let u = unwrap_running(&d(&[350.0, 10.0, 40.0]));
+        assert_relative_eq!(u[1].to_degrees(), 370.0, epsilon = 1e-9);
+        assert_relative_eq!(u[2].to_degrees(), 400.0, epsilon = 1e-9);
+        let u = unwrap_running(&d(&[90.0, 60.0, 300.0]));
+        assert_relative_eq!(u[2].to_degrees(), -60.0, epsilon = 1e-9);
+    }
+
+    #[test]
+    fn grouped_jacobian_matches_plain_differences() {
+        let spec = PathSpec {
+            points: vec![
+                Point2::new(0.0, 0.0),
+                Point2::new(10.0, 3.0),
+                Point2::new(18.0, 9.0),
+                Point2::new(20.0, 15.0),
+            ],
+            timing: PathTiming::Free,
+        };
+        let task = PathTask::new(&spec, &Limits::default());
+        let mut rng = <ChaCha8Rng as rand::SeedableRng>::seed_from_u64(7);
+        let (x, mode) = task.sample(&mut rng);
+        let m = task.n_residuals();
+        let mut r0 = vec![0.0; m];
+        task.residuals(&x, mode, &mut r0);
+        let mut a = DMatrix::zeros(m, x.len());
+        let mut b = DMatrix::zeros(m, x.len());
+        task.jacobian(&x, mode, &r0, &mut a);
+        super::super::fd_jacobian(&task, &x, mode, &r0, &mut b);
+        for i in 0..m {
+            for j in 0..x.len() {
+                assert_relative_eq!(a[(i, j)], b[(i, j)], epsilon = 1e-4, max_relative = 1e-4);
+            }
+        }
+    }
+}
