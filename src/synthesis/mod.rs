@@ -300,14 +300,18 @@ impl Shared<'_> {
     }
 }
 
-/// Whether two verified designs are the same up to rounding: same assembly and every pivot,
-/// length and coupler-point coordinate within `1e-4` of the linkage's size.
+/// Two designs whose pivots, lengths and coupler points all differ by less than this fraction
+/// of the linkage's size (sum of link lengths) count as one: no designer would tell them apart.
+pub const NEAR_DUPLICATE: f64 = 2e-3;
+
+/// Whether two verified designs are near-duplicates: same assembly and every pivot,
+/// length and coupler-point coordinate within [`NEAR_DUPLICATE`] of the linkage's size.
 pub fn same_design(a: &Verified, b: &Verified) -> bool {
     let (la, lb) = (&a.linkage, &b.linkage);
     if la.assembly() != lb.assembly() {
         return false;
     }
-    let tol = 1e-4 * la.size().max(lb.size());
+    let tol = NEAR_DUPLICATE * la.size().max(lb.size());
     let (ca, cb) = (la.coupler_point(), lb.coupler_point());
     let pairs = [
         (la.input_pivot().x, lb.input_pivot().x),
