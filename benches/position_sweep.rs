@@ -1,1 +1,3 @@
+//! Position sweep benchmark (written in the kinematics work).
+
 fn main() {}

@@ -248,15 +248,18 @@ impl TaskSpec {
     }
 }
 
+/// A rectangle `(min corner, max corner)`.
+pub type Region = (Point2<f64>, Point2<f64>);
+
 /// Checked limits, radians for angles.
 #[derive(Debug, Clone, PartialEq, Default)]
 pub struct Limits {
     /// Link length range.
     pub link_length: Option<(f64, f64)>,
     /// Region `(min corner, max corner)` of the input pivot `O2`.
-    pub input_region: Option<(Point2<f64>, Point2<f64>)>,
+    pub input_region: Option<Region>,
     /// Region of the output pivot `O4`.
-    pub output_region: Option<(Point2<f64>, Point2<f64>)>,
+    pub output_region: Option<Region>,
     /// Fixed `O2`.
     pub input_pivot: Option<Point2<f64>>,
     /// Fixed `O4`.
@@ -461,7 +464,9 @@ fn check_function(c: &Checker, f: &FunctionFile) -> Result<FunctionSpec, InputEr
             }
             rows.sort_by(|a, b| a.0.total_cmp(&b.0));
             for w in rows.windows(2) {
-                if w[0].0 == w[1].0 {
+                #[allow(clippy::float_cmp)] // reason: an exactly repeated x is the error
+                let repeated = w[0].0 == w[1].0;
+                if repeated {
                     return Err(c.err(
                         "task.function.table",
                         format!("x = {} appears twice", w[0].0),
@@ -482,7 +487,9 @@ fn check_function(c: &Checker, f: &FunctionFile) -> Result<FunctionSpec, InputEr
     };
     let x0 = c.finite("task.function.x[0]", f.x[0])?;
     let xf = c.finite("task.function.x[1]", f.x[1])?;
-    if x0 == xf {
+    #[allow(clippy::float_cmp)] // reason: exactly zero width is the error
+    let zero_width = x0 == xf;
+    if zero_width {
         return Err(c.err("task.function.x", format!("[{x0}, {xf}] has zero width")));
     }
     if let FunctionSource::Table(t) = &source {
@@ -598,9 +605,7 @@ fn check_limits(c: &Checker, l: &LimitsFile) -> Result<Limits, InputError> {
             Some((a, b))
         }
     };
-    let region = |field: &str,
-                  r: Option<[[f64; 2]; 2]>|
-     -> Result<Option<(Point2<f64>, Point2<f64>)>, InputError> {
+    let region = |field: &str, r: Option<[[f64; 2]; 2]>| -> Result<Option<Region>, InputError> {
         let Some([p, q]) = r else { return Ok(None) };
         let lo = c.point(&format!("{field}[0]"), p)?;
         let hi = c.point(&format!("{field}[1]"), q)?;
@@ -618,7 +623,7 @@ fn check_limits(c: &Checker, l: &LimitsFile) -> Result<Limits, InputError> {
     let both = region("limits.pivot_region", l.pivot_region)?;
     let meet = |field: &str,
                 own: Option<(Point2<f64>, Point2<f64>)>|
-     -> Result<Option<(Point2<f64>, Point2<f64>)>, InputError> {
+     -> Result<Option<Region>, InputError> {
         Ok(match (own, both) {
             (None, b) => b,
             (a, None) => a,
