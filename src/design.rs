@@ -139,17 +139,111 @@ pub fn parse_designs(path: &Path, text: &str) -> Result<Vec<Design>, InputError>
     raws.into_iter()
         .enumerate()
         .map(|(i, raw)| {
-            Design::try_from(raw).map_err(|e| InputError::Invalid {
-                path: path.to_path_buf(),
-                field: if many {
-                    format!("design {}", i + 1)
-                } else {
-                    "design".into()
+            let label = if many {
+                format!("design {}", i + 1)
+            } else {
+                "design".into()
+            };
+            let (key, message) = match check_scale(&raw) {
+                Err((key, message)) => (key.to_string(), message),
+                Ok(()) => match Design::try_from(raw) {
+                    Ok(d) => return Ok(d),
+                    Err(e) => (linkage_field(&e), e.to_string()),
                 },
-                message: e.to_string(),
+            };
+            // Point at the offending key: `[i].key` in a list, `key` in a single mapping.
+            let steps = crate::input::field_steps(&if many {
+                format!("[{i}].{key}")
+            } else {
+                key.to_string()
+            });
+            Err(match steps.and_then(|s| crate::input::locate(text, &s)) {
+                Some((line, column)) => InputError::InvalidAt {
+                    path: path.to_path_buf(),
+                    line,
+                    column,
+                    field: label,
+                    message,
+                },
+                None => InputError::Invalid {
+                    path: path.to_path_buf(),
+                    field: label,
+                    message,
+                },
             })
         })
         .collect()
+}
+
+/// Largest magnitude accepted for a length or coordinate in a design file: beyond it the
+/// file is almost surely in the wrong units, and squares lose the precision the position
+/// solver needs.
+pub const MAX_MAGNITUDE: f64 = 1e12;
+
+/// Smallest link length, as a fraction of the design's largest length or coordinate, that
+/// the position solver's tolerance (relative to the linkage's size) can still resolve.
+pub const MIN_RELATIVE_LENGTH: f64 = 1e-9;
+
+/// Design-file field (a key path for [`crate::input::field_steps`]) that a
+/// [`LinkageError`] is about.
+fn linkage_field(e: &LinkageError) -> String {
+    match e {
+        LinkageError::BadLength { field, .. } | LinkageError::NotFinite { field, .. } => field
+            .replace(".x", "[0]")
+            .replace(".y", "[1]")
+            .replace(".p", "[0]")
+            .replace(".q", "[1]"),
+        LinkageError::ZeroGround => "output_pivot".into(),
+    }
+}
+
+/// Refuses numbers too large for the file's units and links too short to resolve next to
+/// the rest of the design. Returns the offending key and the message. Non-finite and
+/// non-positive values are left to [`FourBar::new`], which names them.
+fn check_scale(f: &DesignFile) -> Result<(), (&'static str, String)> {
+    let numbers = [
+        ("input_pivot[0]", f.input_pivot[0]),
+        ("input_pivot[1]", f.input_pivot[1]),
+        ("output_pivot[0]", f.output_pivot[0]),
+        ("output_pivot[1]", f.output_pivot[1]),
+        ("input_link", f.input_link),
+        ("coupler", f.coupler),
+        ("output_link", f.output_link),
+        ("coupler_point[0]", f.coupler_point[0]),
+        ("coupler_point[1]", f.coupler_point[1]),
+    ];
+    let mut largest: f64 = 0.0;
+    for (key, v) in numbers {
+        if v.is_finite() && v.abs() > MAX_MAGNITUDE {
+            return Err((
+                key,
+                format!(
+                    "{key} = {v:e}: expected a magnitude of at most {MAX_MAGNITUDE:e}; check the units"
+                ),
+            ));
+        }
+        if v.is_finite() {
+            largest = largest.max(v.abs());
+        }
+    }
+    let ground = (f.output_pivot[0] - f.input_pivot[0]).hypot(f.output_pivot[1] - f.input_pivot[1]);
+    let lengths = [
+        ("output_pivot", "ground link", ground),
+        ("input_link", "input_link", f.input_link),
+        ("coupler", "coupler", f.coupler),
+        ("output_link", "output_link", f.output_link),
+    ];
+    for (key, name, v) in lengths {
+        if v.is_finite() && v > 0.0 && v < MIN_RELATIVE_LENGTH * largest {
+            return Err((
+                key,
+                format!(
+                    "{name} = {v} is shorter than {MIN_RELATIVE_LENGTH:e} of the design's                      largest dimension ({largest}): too small for the position solver to                      resolve; check the units"
+                ),
+            ));
+        }
+    }
+    Ok(())
 }
 
 /// Serialises designs as a YAML list of design-file mappings.
@@ -195,5 +289,31 @@ mod tests {
             .unwrap_err()
             .to_string();
         assert!(e.contains("coupler") && e.contains("-70"), "{e}");
+        assert!(e.starts_with("x.yaml:6:10: design:"), "{e}");
+    }
+
+    #[test]
+    fn errors_in_a_list_name_the_design_and_its_line() {
+        let one = VENT.replace('\n', "\n  ").replacen("name", "- name", 1);
+        let two = one.replace("output_link: 55.0", "output_link: .nan");
+        let e = parse_designs(Path::new("l.yaml"), &format!("{one}\n{two}"))
+            .unwrap_err()
+            .to_string();
+        assert!(e.starts_with("l.yaml:17:16: design 2:"), "{e}");
+        assert!(e.contains("output_link") && e.contains("NaN"), "{e}");
+    }
+
+    #[test]
+    fn absurd_scales_are_refused() {
+        let far = VENT.replace("output_pivot: [80.0, 0.0]", "output_pivot: [1e300, 0.0]");
+        let e = parse_designs(Path::new("x.yaml"), &far)
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("output_pivot[0]") && e.contains("units"), "{e}");
+        let tiny = VENT.replace("coupler: 70.0", "coupler: 1e-17");
+        let e = parse_designs(Path::new("x.yaml"), &tiny)
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("coupler") && e.contains("resolve"), "{e}");
     }
 }

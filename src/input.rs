@@ -26,6 +26,20 @@ pub enum InputError {
         /// What is wrong, in words.
         message: String,
     },
+    /// A field has a value that parses but is not acceptable, at a known place in the file.
+    #[error("{path}:{line}:{column}: {field}: {message}")]
+    InvalidAt {
+        /// The file.
+        path: PathBuf,
+        /// 1-based line of the field's value.
+        line: usize,
+        /// 1-based column of the field's value.
+        column: usize,
+        /// Dotted field name, e.g. `task.path.points[3]`.
+        field: String,
+        /// What is wrong and what is expected.
+        message: String,
+    },
     /// A field has a value that parses but is not acceptable.
     #[error("{path}: {field}: {message}")]
     Invalid {
@@ -58,6 +72,20 @@ fn suggest(message: &str) -> Option<String> {
         .map(|k| (edit_distance(bad, k), *k))
         .min_by_key(|(d, _)| *d)?;
     (best.0 <= bad.len().max(3) / 2 + 1).then(|| best.1.to_string())
+}
+
+/// A number for a message: at most six decimals, without trailing zeros (`14.142136`, `50`);
+/// very large or small magnitudes in exponent form.
+pub fn short(v: f64) -> String {
+    if v != 0.0 && v.is_finite() && !(1e-4..1e12).contains(&v.abs()) {
+        return format!("{v:e}");
+    }
+    let t = format!("{v:.6}");
+    if t.contains('.') {
+        t.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        t
+    }
 }
 
 /// Levenshtein distance between two short strings.
@@ -118,6 +146,177 @@ pub fn yaml_error(path: &Path, e: &serde_yaml::Error) -> InputError {
     }
 }
 
+/// One step of a field path: a mapping key or a sequence index.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum FieldStep {
+    /// A key of a mapping.
+    Key(String),
+    /// A 0-based index into a sequence.
+    Index(usize),
+}
+
+/// Splits a dotted field name such as `task.path.points[3][1]` into steps; `None` when it is
+/// not a field path (e.g. `(file)`).
+pub fn field_steps(field: &str) -> Option<Vec<FieldStep>> {
+    let mut steps = Vec::new();
+    for part in field.split('.') {
+        let (key, mut rest) = match part.find('[') {
+            Some(i) => (&part[..i], &part[i..]),
+            None => (part, ""),
+        };
+        if !key.is_empty() {
+            if !key
+                .chars()
+                .all(|c| c.is_ascii_alphanumeric() || c == '_' || c == '-')
+            {
+                return None;
+            }
+            steps.push(FieldStep::Key(key.to_string()));
+        }
+        while let Some(r) = rest.strip_prefix('[') {
+            let (num, tail) = r.split_once(']')?;
+            steps.push(FieldStep::Index(num.parse().ok()?));
+            rest = tail;
+        }
+        if !rest.is_empty() {
+            return None;
+        }
+    }
+    (!steps.is_empty()).then_some(steps)
+}
+
+/// Message of the error that marks the node being looked for (never shown to a user).
+const FOUND: &str = "\u{0}crankwright-field-found";
+
+/// A serde seed that walks `steps` down the document and fails at the node they name, so that
+/// the YAML parser attaches that node's line and column to the error.
+struct Probe<'a>(&'a [FieldStep]);
+
+impl<'de> serde::de::DeserializeSeed<'de> for Probe<'_> {
+    type Value = ();
+    fn deserialize<D: serde::Deserializer<'de>>(self, d: D) -> Result<(), D::Error> {
+        d.deserialize_any(self)
+    }
+}
+
+impl Probe<'_> {
+    fn at<E: serde::de::Error>(&self) -> Result<(), E> {
+        if self.0.is_empty() {
+            Err(E::custom(FOUND))
+        } else {
+            Ok(())
+        }
+    }
+}
+
+impl<'de> serde::de::Visitor<'de> for Probe<'_> {
+    type Value = ();
+    fn expecting(&self, f: &mut std::fmt::Formatter) -> std::fmt::Result {
+        f.write_str("any value")
+    }
+    fn visit_bool<E: serde::de::Error>(self, _: bool) -> Result<(), E> {
+        self.at()
+    }
+    fn visit_i64<E: serde::de::Error>(self, _: i64) -> Result<(), E> {
+        self.at()
+    }
+    fn visit_u64<E: serde::de::Error>(self, _: u64) -> Result<(), E> {
+        self.at()
+    }
+    fn visit_i128<E: serde::de::Error>(self, _: i128) -> Result<(), E> {
+        self.at()
+    }
+    fn visit_u128<E: serde::de::Error>(self, _: u128) -> Result<(), E> {
+        self.at()
+    }
+    fn visit_f64<E: serde::de::Error>(self, _: f64) -> Result<(), E> {
+        self.at()
+    }
+    fn visit_str<E: serde::de::Error>(self, _: &str) -> Result<(), E> {
+        self.at()
+    }
+    fn visit_unit<E: serde::de::Error>(self) -> Result<(), E> {
+        self.at()
+    }
+    fn visit_none<E: serde::de::Error>(self) -> Result<(), E> {
+        self.at()
+    }
+    fn visit_some<D: serde::Deserializer<'de>>(self, d: D) -> Result<(), D::Error> {
+        d.deserialize_any(self)
+    }
+    fn visit_enum<A: serde::de::EnumAccess<'de>>(self, _: A) -> Result<(), A::Error> {
+        self.at()
+    }
+    fn visit_seq<A: serde::de::SeqAccess<'de>>(self, mut seq: A) -> Result<(), A::Error> {
+        self.at()?;
+        let want = match self.0.first() {
+            Some(FieldStep::Index(i)) => Some(*i),
+            _ => None,
+        };
+        let mut i = 0;
+        loop {
+            if Some(i) == want {
+                if seq.next_element_seed(Probe(&self.0[1..]))?.is_none() {
+                    return Ok(());
+                }
+            } else if seq.next_element::<serde::de::IgnoredAny>()?.is_none() {
+                return Ok(());
+            }
+            i += 1;
+        }
+    }
+    fn visit_map<A: serde::de::MapAccess<'de>>(self, mut map: A) -> Result<(), A::Error> {
+        self.at()?;
+        let want = match self.0.first() {
+            Some(FieldStep::Key(k)) => Some(k.as_str()),
+            _ => None,
+        };
+        while let Some(key) = map.next_key::<serde_yaml::Value>()? {
+            if want.is_some() && key.as_str() == want {
+                map.next_value_seed(Probe(&self.0[1..]))?;
+            } else {
+                map.next_value::<serde::de::IgnoredAny>()?;
+            }
+        }
+        Ok(())
+    }
+}
+
+/// Line and column (1-based) of the value at `steps` in YAML `text`, when it is there.
+pub fn locate(text: &str, steps: &[FieldStep]) -> Option<(usize, usize)> {
+    use serde::de::DeserializeSeed as _;
+    let de = serde_yaml::Deserializer::from_str(text);
+    match Probe(steps).deserialize(de) {
+        Err(e) if e.to_string().contains(FOUND) => e.location().map(|l| (l.line(), l.column())),
+        _ => None,
+    }
+}
+
+/// Gives an [`InputError::Invalid`] the line and column of its field in `text`, when found.
+pub fn with_location(err: InputError, text: &str) -> InputError {
+    match err {
+        InputError::Invalid {
+            path,
+            field,
+            message,
+        } => match field_steps(&field).and_then(|s| locate(text, &s)) {
+            Some((line, column)) => InputError::InvalidAt {
+                path,
+                line,
+                column,
+                field,
+                message,
+            },
+            None => InputError::Invalid {
+                path,
+                field,
+                message,
+            },
+        },
+        other => other,
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -127,5 +326,49 @@ mod tests {
         let m = "unknown field `coupler_pont`, expected one of `coupler`, `coupler_point`, `units`";
         assert_eq!(suggest(m).as_deref(), Some("coupler_point"));
         assert_eq!(edit_distance("kitten", "sitting"), 3);
+    }
+
+    #[test]
+    fn short_numbers() {
+        assert_eq!(short(14.142135623730951), "14.142136");
+        assert_eq!(short(50.0), "50");
+        assert_eq!(short(-0.5), "-0.5");
+        assert_eq!(short(1.5e-9), "1.5e-9");
+        assert_eq!(short(0.0), "0");
+    }
+
+    #[test]
+    fn field_paths_split_into_steps() {
+        use FieldStep::{Index, Key};
+        assert_eq!(
+            field_steps("task.path.points[3][1]"),
+            Some(vec![
+                Key("task".into()),
+                Key("path".into()),
+                Key("points".into()),
+                Index(3),
+                Index(1)
+            ])
+        );
+        assert_eq!(
+            field_steps("[2].coupler"),
+            Some(vec![Index(2), Key("coupler".into())])
+        );
+        assert_eq!(field_steps("(file)"), None);
+        assert_eq!(field_steps("design 2"), None);
+        assert_eq!(field_steps("a[x]"), None);
+    }
+
+    #[test]
+    fn locates_nested_values_in_block_and_flow_style() {
+        let text = "task:\n  path:\n    points: [[0, 0], [1, .nan]]\nlimits:\n  link_length:\n    - 3\n    - 1\n";
+        let at = |f: &str| locate(text, &field_steps(f).unwrap());
+        assert_eq!(at("task.path.points[1][1]"), Some((3, 26)));
+        assert_eq!(at("limits.link_length[1]"), Some((7, 7)));
+        assert_eq!(at("limits.link_length"), Some((6, 5)));
+        assert_eq!(at("limits.pivot_region"), None);
+        assert_eq!(at("task.path.points[5]"), None);
+        assert_eq!(locate("a: 1", &field_steps("b").unwrap()), None);
+        assert_eq!(locate("a: 1", &field_steps("a[0]").unwrap()), None);
     }
 }

@@ -12,9 +12,10 @@ use anyhow::Context as _;
 use clap::{Parser, Subcommand};
 use indicatif::{ProgressBar, ProgressStyle};
 
+use crankwright::fsutil::write_atomic;
 use crankwright::report::check::CheckReport;
 use crankwright::report::table::{rows_to_csv, sweep_rows};
-use crankwright::scenario::load_scenario;
+use crankwright::scenario::{load_scenario, MAX_STARTS};
 use crankwright::synthesis::output::{write_results, Summary};
 use crankwright::synthesis::{synthesize, EngineOptions, Observer, Progress};
 use crankwright::{load_designs, Design, InputError};
@@ -97,6 +98,12 @@ enum Failure {
     Usage(String),
 }
 
+/// Most worker threads `synth --threads` accepts.
+const MAX_THREADS: usize = 1024;
+
+/// Smallest `sweep --step`, degrees (360,000 rows a turn).
+const MIN_STEP: f64 = 1e-3;
+
 fn pick(path: &Path, index: usize) -> Result<Design, Failure> {
     let mut designs = load_designs(path)?;
     let n = designs.len();
@@ -141,8 +148,8 @@ fn synth(
         scenario.search.seed = s;
     }
     if let Some(n) = starts {
-        if n == 0 {
-            return Err(Failure::Usage("--starts 0: expected at least 1".into()).into());
+        if n == 0 || n > MAX_STARTS {
+            return Err(Failure::Usage(format!("--starts {n}: expected 1 to {MAX_STARTS}")).into());
         }
         scenario.search.starts = n;
     }
@@ -154,8 +161,8 @@ fn synth(
         }
         scenario.search.time_limit = t;
     }
-    if threads == Some(0) {
-        return Err(Failure::Usage("--threads 0: expected at least 1".into()).into());
+    if let Some(n) = threads.filter(|n| !(1..=MAX_THREADS).contains(n)) {
+        return Err(Failure::Usage(format!("--threads {n}: expected 1 to {MAX_THREADS}")).into());
     }
     let task = crankwright::task::build(&scenario)
         .map_err(|e| Failure::Usage(format!("{}: {e}", scenario_path.display())))?;
@@ -165,6 +172,13 @@ fn synth(
             .map_or_else(|| "run".into(), |s| s.to_string_lossy().into_owned());
         PathBuf::from("out").join(stem.trim_end_matches(".scenario"))
     });
+    if dir.exists() && !dir.is_dir() {
+        return Err(Failure::Usage(format!(
+            "{}: --out names a file, not a folder; choose another --out",
+            dir.display()
+        ))
+        .into());
+    }
     if dir.exists() {
         let non_empty = std::fs::read_dir(&dir)
             .with_context(|| format!("reading {}", dir.display()))?
@@ -178,18 +192,34 @@ fn synth(
             .into());
         }
     }
-    std::fs::create_dir_all(&dir).with_context(|| format!("creating {}", dir.display()))?;
+    std::fs::create_dir_all(&dir).map_err(|e| {
+        Failure::Usage(format!(
+            "{}: cannot create the output folder: {e}",
+            dir.display()
+        ))
+    })?;
     let stop = Arc::new(AtomicBool::new(false));
     {
         let stop = Arc::clone(&stop);
+        // The first Ctrl-C ends the search, which then writes what it has; a second one
+        // aborts at once (files already written stay whole: they are written atomically).
         // A second handler cannot be installed (e.g. in tests); the time limit still applies.
-        let _ = ctrlc::set_handler(move || stop.store(true, Ordering::SeqCst));
+        let _ = ctrlc::set_handler(move || {
+            if stop.swap(true, Ordering::SeqCst) {
+                eprintln!("crankwright: aborted");
+                std::process::exit(130);
+            }
+            eprintln!(
+                "crankwright: stopping; writing the best designs so far (Ctrl-C again aborts)"
+            );
+        });
     }
     let s = &scenario.search;
     let options = EngineOptions {
         seed: s.seed,
         starts: s.starts,
-        time_limit: Duration::from_secs_f64(s.time_limit),
+        // Saturates for limits beyond what a Duration holds.
+        time_limit: Duration::try_from_secs_f64(s.time_limit).unwrap_or(Duration::MAX),
         keep: s.keep,
         threads,
         ..EngineOptions::default()
@@ -253,10 +283,11 @@ fn run(cli: Cli) -> anyhow::Result<ExitCode> {
             csv,
             json,
         } => {
-            if !(step.is_finite() && step > 0.0 && step <= 360.0) {
-                return Err(
-                    Failure::Usage(format!("--step {step}: expected degrees in (0, 360]")).into(),
-                );
+            if !(step.is_finite() && (MIN_STEP..=360.0).contains(&step)) {
+                return Err(Failure::Usage(format!(
+                    "--step {step}: expected degrees from {MIN_STEP} to 360"
+                ))
+                .into());
             }
             if !speed.is_finite() {
                 return Err(
@@ -266,7 +297,7 @@ fn run(cli: Cli) -> anyhow::Result<ExitCode> {
             let d = pick(&design, index)?;
             let rows = sweep_rows(&d.linkage, step, speed);
             if let Some(path) = csv {
-                std::fs::write(&path, rows_to_csv(&rows, &d.units))
+                write_atomic(&path, rows_to_csv(&rows, &d.units).as_bytes())
                     .with_context(|| format!("writing {}", path.display()))?;
             }
             if json {
@@ -294,20 +325,46 @@ fn run(cli: Cli) -> anyhow::Result<ExitCode> {
                         r.theta2, r.theta3, r.theta4, r.mu, r.cx, r.cy, r.omega3, r.omega4, r.alpha3, r.alpha4
                     );
                 }
-                if rows.is_empty() {
+            }
+            if rows.is_empty() {
+                if CheckReport::new(&d).assembles {
+                    eprintln!(
+                        "{}: the linkage assembles only over crank ranges narrower than --step {step}; try a smaller step",
+                        design.display()
+                    );
+                } else {
                     eprintln!(
                         "{}: the linkage cannot be assembled at any crank angle",
                         design.display()
                     );
-                    return Ok(ExitCode::from(1));
                 }
+                return Ok(ExitCode::from(1));
             }
             Ok(ExitCode::SUCCESS)
         }
     }
 }
 
+/// Last resort: a panic is a bug, never the user's fault; say so on one line instead of
+/// printing a backtrace (the process then exits with code 101).
+fn install_panic_hook() {
+    std::panic::set_hook(Box::new(|info| {
+        let payload = info.payload();
+        let what = payload
+            .downcast_ref::<&str>()
+            .map(|s| (*s).to_string())
+            .or_else(|| payload.downcast_ref::<String>().cloned())
+            .unwrap_or_default();
+        let at = info
+            .location()
+            .map(|l| format!(" ({}:{})", l.file(), l.line()))
+            .unwrap_or_default();
+        eprintln!("crankwright: internal error, please report it: {what}{at}");
+    }));
+}
+
 fn main() -> ExitCode {
+    install_panic_hook();
     let cli = match Cli::try_parse() {
         Ok(c) => c,
         Err(e) => {

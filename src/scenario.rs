@@ -9,6 +9,17 @@ use serde::{Deserialize, Serialize};
 
 use crate::input::{parse_yaml, read_text, InputError};
 
+/// Largest magnitude accepted for any number in a scenario (lengths, coordinates, angles,
+/// function values, seconds): beyond it the file is almost surely in the wrong units, and
+/// squares of such numbers lose the precision the solvers need.
+pub const MAX_MAGNITUDE: f64 = 1e12;
+
+/// Largest number of random starts accepted.
+pub const MAX_STARTS: usize = 100_000_000;
+
+/// Largest number of designs kept.
+pub const MAX_KEEP: usize = 1000;
+
 /// Timing mode of prescribed crank angles.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize, Default)]
 #[serde(rename_all = "lowercase")]
@@ -329,10 +340,17 @@ impl Checker<'_> {
     }
 
     fn finite(&self, field: &str, v: f64) -> Result<f64, InputError> {
-        if v.is_finite() {
-            Ok(v)
-        } else {
+        if !v.is_finite() {
             Err(self.err(field, format!("{v} is not a finite number")))
+        } else if v.abs() > MAX_MAGNITUDE {
+            Err(self.err(
+                field,
+                format!(
+                    "{v:e}: expected a magnitude of at most {MAX_MAGNITUDE:e}; check the units"
+                ),
+            ))
+        } else {
+            Ok(v)
         }
     }
 
@@ -345,7 +363,7 @@ impl Checker<'_> {
 
     fn positive(&self, field: &str, v: f64) -> Result<f64, InputError> {
         if v.is_finite() && v > 0.0 {
-            Ok(v)
+            self.finite(field, v)
         } else {
             Err(self.err(field, format!("{v}: expected a positive number")))
         }
@@ -367,7 +385,7 @@ pub fn load_scenario(path: &Path) -> Result<Scenario, InputError> {
 /// As [`load_scenario`].
 pub fn parse_scenario(path: &Path, text: &str) -> Result<Scenario, InputError> {
     let raw: ScenarioFile = parse_yaml(path, text)?;
-    check_scenario(path, raw)
+    check_scenario(path, raw).map_err(|e| crate::input::with_location(e, text))
 }
 
 fn check_path(c: &Checker, p: &PathFile) -> Result<PathSpec, InputError> {
@@ -431,6 +449,7 @@ fn check_path(c: &Checker, p: &PathFile) -> Result<PathSpec, InputError> {
                         .map(f64::to_radians)
                 })
                 .collect::<Result<Vec<_>, _>>()?;
+            check_crank_angles(c, &rad)?;
             match t.unwrap_or_default() {
                 TimingFile::Absolute => PathTiming::Absolute(rad),
                 TimingFile::Relative => PathTiming::Relative(rad),
@@ -438,6 +457,35 @@ fn check_path(c: &Checker, p: &PathFile) -> Result<PathSpec, InputError> {
         }
     };
     Ok(PathSpec { points, timing })
+}
+
+/// Prescribed crank angles (radians) must step to a new angle at every target and, taken in
+/// running order, stay within one turn: verification rejects anything else as an order
+/// defect, so no design could meet them.
+fn check_crank_angles(c: &Checker, rad: &[f64]) -> Result<(), InputError> {
+    let run = crate::task::path::unwrap_running(rad);
+    for i in 1..run.len() {
+        if (run[i] - run[i - 1]).abs() <= 1e-12 * (1.0 + run[i].abs()) {
+            return Err(c.err(
+                format!("task.path.crank_angles[{i}]"),
+                format!(
+                    "{} deg repeats the previous crank angle (mod 360): one crank angle cannot put the coupler point on two targets",
+                    crate::input::short(rad[i].to_degrees())
+                ),
+            ));
+        }
+    }
+    let span = (run[run.len() - 1] - run[0]).abs();
+    if span > std::f64::consts::TAU * (1.0 + 1e-9) {
+        return Err(c.err(
+            "task.path.crank_angles",
+            format!(
+                "span {} deg in running order (each step taken in the direction of the first): no four-bar can meet this, the targets must be reached within one turn of the crank",
+                crate::input::short(span.to_degrees())
+            ),
+        ));
+    }
+    Ok(())
 }
 
 fn check_function(c: &Checker, f: &FunctionFile) -> Result<FunctionSpec, InputError> {
@@ -747,14 +795,20 @@ fn check_limits(c: &Checker, l: &LimitsFile) -> Result<Limits, InputError> {
 fn check_search(c: &Checker, s: &SearchFile) -> Result<SearchSettings, InputError> {
     let d = SearchSettings::default();
     let starts = s.starts.unwrap_or(d.starts);
-    if starts == 0 {
-        return Err(c.err("search.starts", "0: expected at least 1 start"));
+    if starts == 0 || starts > MAX_STARTS {
+        return Err(c.err(
+            "search.starts",
+            format!("{starts}: expected 1 to {MAX_STARTS} starts"),
+        ));
     }
     let time_limit = s.time_limit.unwrap_or(d.time_limit);
     c.positive("search.time_limit", time_limit)?;
     let keep = s.keep.unwrap_or(d.keep);
-    if keep == 0 {
-        return Err(c.err("search.keep", "0: expected at least 1 design"));
+    if keep == 0 || keep > MAX_KEEP {
+        return Err(c.err(
+            "search.keep",
+            format!("{keep}: expected 1 to {MAX_KEEP} designs"),
+        ));
     }
     Ok(SearchSettings {
         seed: s.seed.unwrap_or(d.seed),
@@ -793,6 +847,7 @@ pub fn check_scenario(path: &Path, raw: ScenarioFile) -> Result<Scenario, InputE
     };
     let limits = check_limits(&c, &raw.limits)?;
     let search = check_search(&c, &raw.search)?;
+    crate::feasibility::check(path, &task, &limits)?;
     let name = raw.name.clone().unwrap_or_else(|| {
         path.file_stem()
             .map_or_else(|| "scenario".into(), |s| s.to_string_lossy().into_owned())

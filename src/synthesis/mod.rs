@@ -13,8 +13,17 @@
 //!    of the box, refined to convergence), which pays on rugged problems where the best basin
 //!    is narrow (the idea of basin hopping, Wales and Doye, J. Phys. Chem. A 101, 1997).
 //!
-//! The time limit and an external stop flag end the search between starts; the best designs
+//! 4. **Finish**: the best distinct candidates get the task's final verification
+//!    ([`Task::finish`]; for a long path searched on a subset of its targets, the check and
+//!    the error over every target) and are ranked again.
+//!
+//! The time limit and an external stop flag end the search within one residual evaluation:
+//! the refinement checks them at every evaluation and abandons its start; the best designs
 //! found so far are returned and marked as stopped.
+//!
+//! Memory is bounded whatever the number of starts: starts run in batches, and only the best
+//! [`EngineOptions::candidate_pool`] candidates (accepted first, then by residual) are kept
+//! between phases, with the others counted by verdict.
 
 pub mod lm;
 pub mod output;
@@ -54,6 +63,11 @@ pub struct EngineOptions {
     pub promote_fraction: f64,
     /// Restarts around the best designs, as a fraction of `starts`. Default 0.1.
     pub hop_fraction: f64,
+    /// Most candidates refined to convergence, whatever `promote_fraction` gives. Default 1000.
+    pub max_promoted: usize,
+    /// Candidates kept in memory between phases (the best by verdict and residual); the rest
+    /// are only counted. At least `max_promoted` is used. Default 4096.
+    pub candidate_pool: usize,
 }
 
 impl Default for EngineOptions {
@@ -68,6 +82,8 @@ impl Default for EngineOptions {
             full_iterations: 400,
             promote_fraction: 0.05,
             hop_fraction: 0.1,
+            max_promoted: 1000,
+            candidate_pool: 4096,
         }
     }
 }
@@ -139,9 +155,15 @@ pub struct Outcome {
     pub stopped: Option<StopReason>,
 }
 
+/// Starts run in parallel between two merges into the bounded candidate pool.
+const BATCH: usize = 1024;
+
+/// Error returned by a residual evaluation when the search has been halted.
+const HALTED: &str = "search halted";
+
 /// Least-squares problem of one start, as argmin sees it.
 struct LmProblem<'a> {
-    task: &'a dyn Task,
+    shared: &'a Shared<'a>,
     mode: Mode,
     evaluations: Cell<u64>,
     last: RefCell<Option<(Params, Params)>>,
@@ -151,9 +173,12 @@ impl Operator for LmProblem<'_> {
     type Param = Params;
     type Output = Params;
     fn apply(&self, x: &Params) -> Result<Params, ArgminError> {
-        let mut r = DVector::zeros(self.task.n_residuals());
-        self.task
-            .residuals(x.as_slice(), self.mode, r.as_mut_slice());
+        if self.shared.halted() {
+            return Err(ArgminError::msg(HALTED));
+        }
+        let task = self.shared.task;
+        let mut r = DVector::zeros(task.n_residuals());
+        task.residuals(x.as_slice(), self.mode, r.as_mut_slice());
         self.evaluations.set(self.evaluations.get() + 1);
         *self.last.borrow_mut() = Some((x.clone(), r.clone()));
         Ok(r)
@@ -164,6 +189,10 @@ impl Jacobian for LmProblem<'_> {
     type Param = Params;
     type Jacobian = DMatrix<f64>;
     fn jacobian(&self, x: &Params) -> Result<DMatrix<f64>, ArgminError> {
+        if self.shared.halted() {
+            return Err(ArgminError::msg(HALTED));
+        }
+        let task = self.shared.task;
         let cached = self
             .last
             .borrow()
@@ -174,9 +203,8 @@ impl Jacobian for LmProblem<'_> {
             Some(r) => r,
             None => self.apply(x)?,
         };
-        let mut j = DMatrix::zeros(self.task.n_residuals(), x.len());
-        self.task
-            .jacobian(x.as_slice(), self.mode, r0.as_slice(), &mut j);
+        let mut j = DMatrix::zeros(task.n_residuals(), x.len());
+        task.jacobian(x.as_slice(), self.mode, r0.as_slice(), &mut j);
         self.evaluations
             .set(self.evaluations.get() + x.len() as u64);
         Ok(j)
@@ -200,10 +228,62 @@ struct Trial {
 }
 
 impl Trial {
+    /// Promotion order: accepted designs first by error, then rejected ones by residual;
+    /// ties by start index, so the order is total and does not depend on scheduling.
     fn key(&self) -> (bool, f64, usize) {
         match &self.verdict {
             Ok(v) => (false, v.error, self.index),
             Err(_) => (true, self.cost, self.index),
+        }
+    }
+
+    fn cmp_key(&self, other: &Self) -> std::cmp::Ordering {
+        let (a, b) = (self.key(), other.key());
+        a.0.cmp(&b.0).then(a.1.total_cmp(&b.1)).then(a.2.cmp(&b.2))
+    }
+
+    /// Ranking order of accepted designs: error, then the better transmission, then index.
+    fn cmp_rank(&self, other: &Self) -> std::cmp::Ordering {
+        match (&self.verdict, &other.verdict) {
+            (Ok(va), Ok(vb)) => va
+                .error
+                .total_cmp(&vb.error)
+                .then(vb.min_transmission.total_cmp(&va.min_transmission))
+                .then(self.index.cmp(&other.index)),
+            _ => self.cmp_key(other),
+        }
+    }
+}
+
+/// The best candidates seen so far (at most `cap`, in promotion order once full) and the
+/// verdicts of those dropped.
+struct Pool {
+    cap: usize,
+    trials: Vec<Trial>,
+    dropped_rejected: BTreeMap<&'static str, usize>,
+    dropped_accepted: usize,
+}
+
+impl Pool {
+    fn new(cap: usize) -> Self {
+        Pool {
+            cap: cap.max(1),
+            trials: Vec::new(),
+            dropped_rejected: BTreeMap::new(),
+            dropped_accepted: 0,
+        }
+    }
+
+    fn absorb(&mut self, batch: Vec<Trial>, by: fn(&Trial, &Trial) -> std::cmp::Ordering) {
+        self.trials.extend(batch);
+        if self.trials.len() > self.cap {
+            self.trials.sort_by(by);
+            for t in self.trials.drain(self.cap..) {
+                match t.verdict {
+                    Ok(_) => self.dropped_accepted += 1,
+                    Err(r) => *self.dropped_rejected.entry(r.name()).or_default() += 1,
+                }
+            }
         }
     }
 }
@@ -252,10 +332,11 @@ impl Shared<'_> {
         }
     }
 
-    /// Refines `x` for `iters` iterations and verifies the result.
-    fn run(&self, index: usize, x: Vec<f64>, mode: Mode, iters: u64) -> Trial {
+    /// Refines `x` for `iters` iterations and verifies the result; `None` when the search
+    /// was halted meanwhile (the start is abandoned, not counted).
+    fn run(&self, index: usize, x: Vec<f64>, mode: Mode, iters: u64) -> Option<Trial> {
         let problem = LmProblem {
-            task: self.task,
+            shared: self,
             mode,
             evaluations: Cell::new(0),
             last: RefCell::new(None),
@@ -272,6 +353,7 @@ impl Shared<'_> {
                 self.evaluations.fetch_add(r.evaluations, Ordering::Relaxed);
                 (r.params.as_slice().to_vec(), r.cost)
             }
+            Err(_) if self.halted() => return None,
             Err(_) => (x, f64::INFINITY),
         };
         let verdict = if cost.is_finite() {
@@ -280,13 +362,13 @@ impl Shared<'_> {
             Err(Rejection::Degenerate)
         };
         self.note(&verdict);
-        Trial {
+        Some(Trial {
             index,
             x,
             mode,
             cost,
             verdict,
-        }
+        })
     }
 
     fn report(&self, phase: &'static str, done: &AtomicUsize, total: usize) {
@@ -367,67 +449,64 @@ fn search(
         observer,
     };
 
-    // 1. Scatter.
+    let pool_cap = options.candidate_pool.max(options.max_promoted).max(1);
+
+    // 1. Scatter, in batches merged into the bounded pool.
     let done = AtomicUsize::new(0);
-    let mut trials: Vec<Trial> = (0..options.starts)
-        .into_par_iter()
-        .map(|i| {
-            if shared.halted() {
-                return None;
-            }
-            let mut rng = rng_for(options.seed, i);
-            let (x, mode) = task.sample(&mut rng);
-            let t = shared.run(i, x, mode, options.quick_iterations);
-            shared.report("scatter", &done, options.starts);
-            Some(t)
-        })
-        .collect::<Vec<_>>()
-        .into_iter()
-        .flatten()
-        .collect();
-    let starts_run = trials.len();
+    let mut pool = Pool::new(pool_cap);
+    let mut starts_run = 0;
+    let mut next = 0;
+    while next < options.starts && !shared.halted() {
+        let end = next.saturating_add(BATCH).min(options.starts);
+        let batch: Vec<Trial> = (next..end)
+            .into_par_iter()
+            .filter_map(|i| {
+                if shared.halted() {
+                    return None;
+                }
+                let mut rng = rng_for(options.seed, i);
+                let (x, mode) = task.sample(&mut rng);
+                let t = shared.run(i, x, mode, options.quick_iterations)?;
+                shared.report("scatter", &done, options.starts);
+                Some(t)
+            })
+            .collect();
+        starts_run += batch.len();
+        pool.absorb(batch, Trial::cmp_key);
+        next = end;
+    }
+    let mut trials = pool.trials;
+    trials.sort_by(Trial::cmp_key);
 
     // 2. Deepen the most promising.
-    let mut order: Vec<usize> = (0..trials.len()).collect();
-    order.sort_by(|&a, &b| {
-        trials[a]
-            .key()
-            .partial_cmp(&trials[b].key())
-            .unwrap_or(std::cmp::Ordering::Equal)
-    });
     let promote = ((options.promote_fraction * starts_run as f64).ceil() as usize)
-        .max(options.keep * 4)
-        .min(starts_run);
-    let chosen: Vec<usize> = order[..promote].to_vec();
+        .max(options.keep.saturating_mul(4))
+        .min(options.max_promoted)
+        .min(trials.len());
     let done = AtomicUsize::new(0);
-    let deepened: Vec<Option<Trial>> = chosen
+    let deepened: Vec<Option<Trial>> = trials[..promote]
         .par_iter()
-        .map(|&k| {
+        .map(|t| {
             if shared.halted() {
                 return None;
             }
-            let t = &trials[k];
-            let d = shared.run(t.index, t.x.clone(), t.mode, options.full_iterations);
+            let d = shared.run(t.index, t.x.clone(), t.mode, options.full_iterations)?;
             shared.report("deepen", &done, promote);
             Some(d)
         })
         .collect();
-    for (k, d) in chosen.iter().zip(deepened) {
+    for (k, d) in deepened.into_iter().enumerate() {
         if let Some(d) = d {
             // Keep the better of the quick and the deepened verdicts.
-            if d.key() <= trials[*k].key() {
-                trials[*k] = d;
+            if d.cmp_key(&trials[k]).is_le() {
+                trials[k] = d;
             }
         }
     }
 
     // 3. Hop around the best accepted designs.
     let mut best: Vec<&Trial> = trials.iter().filter(|t| t.verdict.is_ok()).collect();
-    best.sort_by(|a, b| {
-        a.key()
-            .partial_cmp(&b.key())
-            .unwrap_or(std::cmp::Ordering::Equal)
-    });
+    best.sort_by(|a, b| a.cmp_key(b));
     let mut bases: Vec<(Vec<f64>, Mode)> = Vec::new();
     for t in best {
         let v = t.verdict.as_ref().expect("filtered on Ok");
@@ -447,66 +526,103 @@ fn search(
         (options.hop_fraction * options.starts as f64).ceil() as usize
     };
     let done = AtomicUsize::new(0);
-    let hopped: Vec<Trial> = (0..hops)
-        .into_par_iter()
-        .map(|j| {
-            if shared.halted() {
-                return None;
-            }
-            let (base, mode) = &bases[j % bases.len()];
-            let mut rng = rng_for(options.seed, options.starts + j);
-            let sigma = [0.01, 0.03, 0.1][(j / bases.len()) % 3];
-            let x: Vec<f64> = base
-                .iter()
-                .enumerate()
-                .map(|(i, v)| {
-                    let span = hi[i] - lo[i];
-                    let g: f64 = rng.random_range(-1.0..1.0) + rng.random_range(-1.0..1.0);
-                    (v + sigma * span * g).clamp(lo[i], hi[i])
-                })
-                .collect();
-            let t = shared.run(options.starts + j, x, *mode, options.full_iterations);
-            shared.report("hop", &done, hops);
-            Some(t)
-        })
-        .collect::<Vec<_>>()
-        .into_iter()
-        .flatten()
-        .collect();
+    let mut hop_pool = Pool::new(pool_cap);
+    let mut hop_accepted = 0;
+    let mut next = 0;
+    while next < hops && !shared.halted() {
+        let end = next.saturating_add(BATCH).min(hops);
+        let batch: Vec<Trial> = (next..end)
+            .into_par_iter()
+            .filter_map(|j| {
+                if shared.halted() {
+                    return None;
+                }
+                let (base, mode) = &bases[j % bases.len()];
+                let index = options.starts.saturating_add(j);
+                let mut rng = rng_for(options.seed, index);
+                let sigma = [0.01, 0.03, 0.1][(j / bases.len()) % 3];
+                let x: Vec<f64> = base
+                    .iter()
+                    .enumerate()
+                    .map(|(i, v)| {
+                        let span = hi[i] - lo[i];
+                        let g: f64 = rng.random_range(-1.0..1.0) + rng.random_range(-1.0..1.0);
+                        (v + sigma * span * g).clamp(lo[i], hi[i])
+                    })
+                    .collect();
+                let t = shared.run(index, x, *mode, options.full_iterations)?;
+                shared.report("hop", &done, hops);
+                // Only accepted hops matter (rejected ones are not counted).
+                t.verdict.is_ok().then_some(t)
+            })
+            .collect();
+        hop_accepted += batch.len();
+        hop_pool.absorb(batch, Trial::cmp_rank);
+        next = end;
+    }
 
     // Count verdicts: every scatter start by its final verdict; hops only when accepted.
-    let mut rejected: BTreeMap<&'static str, usize> = BTreeMap::new();
+    let mut rejected = pool.dropped_rejected;
     for t in &trials {
         if let Err(r) = &t.verdict {
             *rejected.entry(r.name()).or_default() += 1;
         }
     }
-    let mut pool: Vec<Trial> = trials.into_iter().filter(|t| t.verdict.is_ok()).collect();
-    pool.extend(hopped.into_iter().filter(|t| t.verdict.is_ok()));
-    let accepted = pool.len();
-    pool.sort_by(|a, b| {
-        let (va, vb) = (a.verdict.as_ref().ok(), b.verdict.as_ref().ok());
-        let (va, vb) = (va.expect("accepted"), vb.expect("accepted"));
-        va.error
-            .total_cmp(&vb.error)
-            .then(vb.min_transmission.total_cmp(&va.min_transmission))
-            .then(a.index.cmp(&b.index))
-    });
-    let mut designs: Vec<Ranked> = Vec::new();
-    for t in pool {
-        let v = t.verdict.expect("accepted");
-        if designs.iter().any(|d| same_design(&d.design, &v)) {
+    let mut candidates: Vec<Trial> = trials.into_iter().filter(|t| t.verdict.is_ok()).collect();
+    let mut accepted = pool.dropped_accepted + candidates.len() + hop_accepted;
+    candidates.extend(hop_pool.trials);
+    candidates.sort_by(Trial::cmp_rank);
+
+    // 4. Finish the best distinct candidates and rank them again.
+    let halted = shared.halted();
+    let finish = if halted {
+        options.keep
+    } else {
+        options.keep.saturating_mul(2)
+    };
+    let mut chosen: Vec<Trial> = Vec::new();
+    for t in candidates {
+        let v = t.verdict.as_ref().expect("accepted");
+        if chosen
+            .iter()
+            .any(|c| same_design(c.verdict.as_ref().expect("accepted"), v))
+        {
             continue;
         }
-        designs.push(Ranked {
-            rank: designs.len() + 1,
-            design: v,
-            start: t.index,
-        });
-        if designs.len() >= options.keep {
+        chosen.push(t);
+        if chosen.len() >= finish {
             break;
         }
     }
+    let finished: Vec<Trial> = chosen
+        .into_par_iter()
+        .map(|mut t| {
+            let v = t.verdict.expect("accepted");
+            t.verdict = task.finish(&t.x, t.mode, v);
+            t
+        })
+        .collect();
+    let mut finals: Vec<Trial> = Vec::new();
+    for t in finished {
+        match &t.verdict {
+            Ok(_) => finals.push(t),
+            Err(r) => {
+                accepted -= 1;
+                *rejected.entry(r.name()).or_default() += 1;
+            }
+        }
+    }
+    finals.sort_by(Trial::cmp_rank);
+    let designs: Vec<Ranked> = finals
+        .into_iter()
+        .take(options.keep)
+        .enumerate()
+        .map(|(i, t)| Ranked {
+            rank: i + 1,
+            design: t.verdict.expect("accepted"),
+            start: t.index,
+        })
+        .collect();
     let stopped = if stop.load(Ordering::Relaxed) {
         Some(StopReason::Interrupted)
     } else if shared.timed_out.load(Ordering::Relaxed) {

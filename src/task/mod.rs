@@ -181,6 +181,17 @@ pub trait Task: Sync {
     /// # Errors
     /// The [`Rejection`] that disqualifies it.
     fn verify(&self, x: &[f64], mode: Mode) -> Result<Verified, Rejection>;
+    /// Final verification of a candidate the search accepted (`verified`, from
+    /// [`Task::verify`]) before it is ranked and reported. Default: `verified` as it is. A
+    /// task that searches a reduced problem (e.g. a long path on a subset of its targets)
+    /// checks the whole problem here and measures the error over all of it.
+    ///
+    /// # Errors
+    /// The [`Rejection`] that disqualifies it.
+    fn finish(&self, x: &[f64], mode: Mode, verified: Verified) -> Result<Verified, Rejection> {
+        let _ = (x, mode);
+        Ok(verified)
+    }
     /// A measure of how far apart two candidates are (0 for the same design), used to merge
     /// near-duplicates; default: largest difference of variables relative to the box.
     fn distance(&self, a: &[f64], b: &[f64]) -> f64 {

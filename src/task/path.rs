@@ -8,6 +8,15 @@
 //! layout's penalties and, for free timing, a penalty on increments adding up to a turn.
 //! Error measure: `sum |C(phi_i) - P_i|^2` (the measure of most published benchmark tables),
 //! also reported as RMS and max distance.
+//!
+//! Long paths: with more than [`SEARCH_TARGETS`] targets the search runs on that many of
+//! them, evenly spaced by index (first and last kept), so that the least-squares problem
+//! stays small (free timing would otherwise need one variable and three residual rows per
+//! target: a dense Jacobian of `(3n + 7) x (n + 9)`). [`Task::finish`] then checks the
+//! candidate through every target and measures the error over all of them: prescribed crank
+//! angles are used as given; free ones are placed target by target between the crank angles
+//! of the neighbouring search targets, in order, each where the coupler point comes closest
+//! to its target (a scan followed by a golden-section search).
 
 use std::f64::consts::TAU;
 
@@ -31,6 +40,40 @@ enum Timing {
     Relative(Vec<f64>),
 }
 
+/// Paths with more targets than this are searched on this many of them (see the module docs).
+pub const SEARCH_TARGETS: usize = 48;
+
+/// Evaluations of the scan that brackets each placed crank angle of a long free-timing path.
+const PLACE_SCAN: usize = 12;
+/// Most iterations of Brent's method refining each placed crank angle.
+const PLACE_ITERATIONS: usize = 60;
+/// Tolerance (radians, relative to `1 + |angle|`) of each placed crank angle.
+const PLACE_TOLERANCE: f64 = 1e-10;
+
+/// Indices of `keep` targets out of `n`, evenly spaced, first and last included.
+pub fn even_subset(n: usize, keep: usize) -> Vec<usize> {
+    if keep >= n || keep < 2 {
+        return (0..n).collect();
+    }
+    let mut idx: Vec<usize> = (0..keep)
+        .map(|j| ((j as f64) * (n - 1) as f64 / (keep - 1) as f64).round() as usize)
+        .collect();
+    idx.dedup();
+    idx
+}
+
+/// The whole path when the search runs on a subset of its targets.
+#[derive(Debug, Clone)]
+struct FullPath {
+    /// Indices of the search targets in the whole list.
+    subset: Vec<usize>,
+    /// Every target (user units).
+    targets: Vec<Point2<f64>>,
+    /// Prescribed crank angles of every target: as given (absolute) or as offsets from the
+    /// first (relative); `None` for free timing.
+    timing: Option<Vec<f64>>,
+}
+
 /// The path-generation task.
 #[derive(Debug, Clone)]
 pub struct PathTask {
@@ -38,6 +81,7 @@ pub struct PathTask {
     layout: Layout,
     targets: Vec<Point2<f64>>,
     user_targets: Vec<Point2<f64>>,
+    full: Option<FullPath>,
     timing: Timing,
     limits: Limits,
     sweep: SweepOptions,
@@ -62,11 +106,11 @@ pub fn unwrap_running(angles: &[f64]) -> Vec<f64> {
 }
 
 impl PathTask {
-    /// The task for `spec` within `limits`.
+    /// The task for `spec` within `limits` (searched on [`SEARCH_TARGETS`] of its targets when
+    /// it has more).
     pub fn new(spec: &PathSpec, limits: &Limits) -> Self {
         let frame = Frame::of(&spec.points);
-        let targets: Vec<_> = spec.points.iter().map(|p| frame.to_internal(*p)).collect();
-        let timing = match &spec.timing {
+        let all_timing = match &spec.timing {
             PathTiming::Free => Timing::Free,
             PathTiming::Absolute(a) => Timing::Absolute(unwrap_running(a)),
             PathTiming::Relative(a) => {
@@ -74,6 +118,26 @@ impl PathTask {
                 Timing::Relative(u.iter().map(|v| v - u[0]).collect())
             }
         };
+        let n = spec.points.len();
+        let (points, timing, full) = if n > SEARCH_TARGETS {
+            let subset = even_subset(n, SEARCH_TARGETS);
+            let pick = |v: &[f64]| subset.iter().map(|&i| v[i]).collect::<Vec<f64>>();
+            let (timing, given) = match &all_timing {
+                Timing::Free => (Timing::Free, None),
+                Timing::Absolute(a) => (Timing::Absolute(pick(a)), Some(a.clone())),
+                Timing::Relative(d) => (Timing::Relative(pick(d)), Some(d.clone())),
+            };
+            let points = subset.iter().map(|&i| spec.points[i]).collect();
+            let full = FullPath {
+                subset,
+                targets: spec.points.clone(),
+                timing: given,
+            };
+            (points, timing, Some(full))
+        } else {
+            (spec.points.clone(), all_timing, None)
+        };
+        let targets: Vec<_> = points.iter().map(|p| frame.to_internal(*p)).collect();
         let mut chords: Vec<f64> = targets.windows(2).map(|w| (w[1] - w[0]).norm()).collect();
         let total: f64 = chords.iter().sum();
         for c in &mut chords {
@@ -83,7 +147,8 @@ impl PathTask {
             frame,
             layout: Layout::new(limits, &frame, true),
             targets,
-            user_targets: spec.points.clone(),
+            user_targets: points,
+            full,
             timing,
             limits: limits.clone(),
             sweep: SweepOptions::default(),
@@ -285,39 +350,278 @@ impl Task for PathTask {
         let linkage = self.frame.linkage_to_user(&internal);
         let phis = self.crank_angles(x, mode);
         let check = check_motion(&linkage, &phis, &self.limits, &self.sweep)?;
-        let reached: Vec<Point2<f64>> = check
-            .poses
-            .iter()
-            .map(|p| linkage.coupler_point_at(p.theta2, p.theta3))
-            .collect();
-        let d2: Vec<f64> = reached
-            .iter()
-            .zip(&self.user_targets)
-            .map(|(a, b)| (a - b).norm_squared())
-            .collect();
-        let sse: f64 = d2.iter().sum();
-        let rms = (sse / d2.len() as f64).sqrt();
-        let max = d2.iter().copied().fold(0.0, f64::max).sqrt();
-        let mut measures = serde_json::Map::new();
-        measures.insert("sum_squared_error".into(), sse.into());
-        measures.insert("rms_error".into(), rms.into());
-        measures.insert("max_error".into(), max.into());
-        Ok(Verified {
-            grashof: linkage.grashof(),
-            linkage,
-            crank_angles: phis,
-            error: sse,
-            min_transmission: check.min_transmission,
-            measures,
-            reached,
-        })
+        Ok(measured(linkage, phis, &check, &self.user_targets))
     }
+
+    fn finish(&self, x: &[f64], _mode: Mode, verified: Verified) -> Result<Verified, Rejection> {
+        let Some(full) = &self.full else {
+            return Ok(verified);
+        };
+        let linkage = verified.linkage;
+        let phis = match &full.timing {
+            None => place_free(
+                &linkage,
+                &full.subset,
+                &verified.crank_angles,
+                &full.targets,
+            )?,
+            Some(given) => match self.timing {
+                Timing::Relative(_) => {
+                    let start = x[self.layout.dim()];
+                    given.iter().map(|d| start + d).collect()
+                }
+                _ => given.clone(),
+            },
+        };
+        let check = check_motion(&linkage, &phis, &self.limits, &self.sweep)?;
+        Ok(measured(linkage, phis, &check, &full.targets))
+    }
+}
+
+/// The verified design with its errors at `targets` (user units).
+fn measured(
+    linkage: crate::FourBar,
+    phis: Vec<f64>,
+    check: &super::MotionCheck,
+    targets: &[Point2<f64>],
+) -> Verified {
+    let reached: Vec<Point2<f64>> = check
+        .poses
+        .iter()
+        .map(|p| linkage.coupler_point_at(p.theta2, p.theta3))
+        .collect();
+    let d2: Vec<f64> = reached
+        .iter()
+        .zip(targets)
+        .map(|(a, b)| (a - b).norm_squared())
+        .collect();
+    let sse: f64 = d2.iter().sum();
+    let rms = (sse / d2.len() as f64).sqrt();
+    let max = d2.iter().copied().fold(0.0, f64::max).sqrt();
+    let mut measures = serde_json::Map::new();
+    measures.insert("sum_squared_error".into(), sse.into());
+    measures.insert("rms_error".into(), rms.into());
+    measures.insert("max_error".into(), max.into());
+    Verified {
+        grashof: linkage.grashof(),
+        linkage,
+        crank_angles: phis,
+        error: sse,
+        min_transmission: check.min_transmission,
+        measures,
+        reached,
+    }
+}
+
+/// The closed-form position of a linkage (any units), cheap enough to call a few dozen times
+/// per target of a long path.
+fn geometry_of(l: &crate::FourBar) -> super::layout::Geometry {
+    let cp = l.coupler_point();
+    super::layout::Geometry {
+        o2: l.input_pivot(),
+        o4: l.output_pivot(),
+        theta1: l.ground_angle(),
+        r1: l.ground(),
+        r2: l.input_link(),
+        r3: l.coupler(),
+        r4: l.output_link(),
+        p: cp.p,
+        q: cp.q,
+    }
+}
+
+/// Squared distance from the coupler point at crank angle `phi` (from the ground line) to
+/// `target`, infinite where the linkage does not assemble.
+fn miss(g: &super::layout::Geometry, assembly: Assembly, phi: f64, target: Point2<f64>) -> f64 {
+    let s = g.soft_position(phi, assembly);
+    if s.violation > 0.0 {
+        return f64::INFINITY;
+    }
+    (g.coupler_point(&s) - target).norm_squared()
+}
+
+/// Crank angles at every target of a long free-timing path, given those of the search
+/// targets (`subset`, `anchors`, in running order): each target between two search targets
+/// gets the angle, after its predecessor's and before the next search target's, where the
+/// coupler point comes closest to it (see the module docs).
+///
+/// # Errors
+/// [`Rejection::OrderDefect`] when the anchors are not strictly monotonic.
+fn place_free(
+    linkage: &crate::FourBar,
+    subset: &[usize],
+    anchors: &[f64],
+    targets: &[Point2<f64>],
+) -> Result<Vec<f64>, Rejection> {
+    let g = geometry_of(linkage);
+    let assembly = linkage.assembly();
+    let mut phis = vec![0.0; targets.len()];
+    for (w, a) in subset.windows(2).zip(anchors.windows(2)) {
+        let (i0, i1) = (w[0], w[1]);
+        let (a0, a1) = (a[0], a[1]);
+        let span = a1 - a0;
+        if !(span.abs() > 0.0 && span.is_finite()) {
+            return Err(Rejection::OrderDefect);
+        }
+        phis[i0] = a0;
+        phis[i1] = a1;
+        let m = i1 - i0 - 1;
+        // Keep placed angles strictly inside the interval and apart from each other.
+        let gap = 1e-6 * span / (m + 1) as f64;
+        let mut lo = a0;
+        for (k, i) in (i0 + 1..i1).enumerate() {
+            let from = lo + gap;
+            let to = a1 - gap * (m - k) as f64;
+            let f = |t: f64| miss(&g, assembly, t, targets[i]);
+            let phi = minimise_on(from, to, f);
+            phis[i] = phi;
+            lo = phi;
+        }
+    }
+    Ok(phis)
+}
+
+/// Minimiser of `f` on the interval between `a` and `b` (either order): a scan of
+/// [`PLACE_SCAN`] points brackets the best, then Brent's method (golden-section steps with
+/// parabolic interpolation; R. P. Brent, "Algorithms for Minimization without Derivatives",
+/// 1973, ch. 5) refines it to [`PLACE_TOLERANCE`].
+pub fn minimise_on(a: f64, b: f64, f: impl Fn(f64) -> f64) -> f64 {
+    let (a, b) = if a <= b { (a, b) } else { (b, a) };
+    if b - a <= 0.0 {
+        return a;
+    }
+    let h = (b - a) / (PLACE_SCAN - 1) as f64;
+    let mut best = (f64::INFINITY, a);
+    for k in 0..PLACE_SCAN {
+        let t = a + h * k as f64;
+        let v = f(t);
+        if v < best.0 {
+            best = (v, t);
+        }
+    }
+    if !best.0.is_finite() {
+        return best.1;
+    }
+    brent((best.1 - h).max(a), (best.1 + h).min(b), best, f)
+}
+
+/// Brent's minimisation on `[lo, hi]` from the point `x0` with value `f0` inside it.
+fn brent(mut lo: f64, mut hi: f64, (f0, x0): (f64, f64), f: impl Fn(f64) -> f64) -> f64 {
+    const GOLD: f64 = 0.381_966_011_250_105_1; // (3 - sqrt 5) / 2
+    let (mut x, mut w, mut v) = (x0, x0, x0);
+    let (mut fx, mut fw, mut fv) = (f0, f0, f0);
+    let (mut d, mut e): (f64, f64) = (0.0, 0.0);
+    for _ in 0..PLACE_ITERATIONS {
+        let mid = 0.5 * (lo + hi);
+        let tol1 = PLACE_TOLERANCE * (1.0 + x.abs());
+        let tol2 = 2.0 * tol1;
+        if (x - mid).abs() <= tol2 - 0.5 * (hi - lo) {
+            break;
+        }
+        let mut golden = true;
+        if e.abs() > tol1 && fx.is_finite() && fw.is_finite() && fv.is_finite() {
+            // Parabola through x, w, v.
+            let r = (x - w) * (fx - fv);
+            let mut q = (x - v) * (fx - fw);
+            let mut p = (x - v) * q - (x - w) * r;
+            q = 2.0 * (q - r);
+            if q > 0.0 {
+                p = -p;
+            }
+            q = q.abs();
+            let e_old = e;
+            if p.abs() < (0.5 * q * e_old).abs() && p > q * (lo - x) && p < q * (hi - x) {
+                e = d;
+                d = p / q;
+                let u = x + d;
+                if u - lo < tol2 || hi - u < tol2 {
+                    d = tol1.copysign(mid - x);
+                }
+                golden = false;
+            }
+        }
+        if golden {
+            e = if x >= mid { lo - x } else { hi - x };
+            d = GOLD * e;
+        }
+        let u = if d.abs() >= tol1 {
+            x + d
+        } else {
+            x + tol1.copysign(d)
+        };
+        let fu = f(u);
+        if fu <= fx {
+            if u >= x {
+                lo = x;
+            } else {
+                hi = x;
+            }
+            (v, fv) = (w, fw);
+            (w, fw) = (x, fx);
+            (x, fx) = (u, fu);
+        } else {
+            if u < x {
+                lo = u;
+            } else {
+                hi = u;
+            }
+            #[allow(clippy::float_cmp)] // reason: Brent's test for coinciding abscissae
+            let (w_is_x, v_is_x, v_is_w) = (w == x, v == x, v == w);
+            if fu <= fw || w_is_x {
+                (v, fv) = (w, fw);
+                (w, fw) = (u, fu);
+            } else if fu <= fv || v_is_x || v_is_w {
+                (v, fv) = (u, fu);
+            }
+        }
+    }
+    x
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
     use approx::assert_relative_eq;
+
+    #[test]
+    fn even_subset_keeps_ends_and_spacing() {
+        let s = even_subset(10_000, SEARCH_TARGETS);
+        assert_eq!(s.len(), SEARCH_TARGETS);
+        assert_eq!((s[0], s[s.len() - 1]), (0, 9_999));
+        assert!(s.windows(2).all(|w| w[1] > w[0]));
+        assert_eq!(even_subset(5, SEARCH_TARGETS), vec![0, 1, 2, 3, 4]);
+    }
+
+    // Reference minima in closed form: cos has its minimum at pi; (t - 0.3)^2 + 1 at 0.3; an
+    // interval ending before the minimum gives its end. Tolerance 1e-7: near a quadratic
+    // minimum f is flat, so its abscissa is resolved only to about sqrt(machine epsilon).
+    #[test]
+    fn minimiser_finds_interior_and_end_minima() {
+        assert_relative_eq!(
+            minimise_on(2.0, 4.0, f64::cos),
+            std::f64::consts::PI,
+            epsilon = 1e-7
+        );
+        assert_relative_eq!(
+            minimise_on(1.0, -1.0, |t| (t - 0.3).powi(2) + 1.0),
+            0.3,
+            epsilon = 1e-7
+        );
+        assert_relative_eq!(
+            minimise_on(0.5, 1.0, |t| (t - 0.3).powi(2)),
+            0.5,
+            epsilon = 1e-7
+        );
+        // Not assembled (infinite) on part of the interval.
+        let f = |t: f64| {
+            if t < 0.2 {
+                f64::INFINITY
+            } else {
+                (t - 0.25).powi(2)
+            }
+        };
+        assert_relative_eq!(minimise_on(0.0, 1.0, f), 0.25, epsilon = 1e-7);
+    }
 
     #[test]
     fn unwrap_running_keeps_direction() {
