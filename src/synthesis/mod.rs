@@ -52,7 +52,7 @@ pub struct EngineOptions {
     pub full_iterations: u64,
     /// Fraction of starts refined to convergence. Default 0.05 (at least `keep * 4`).
     pub promote_fraction: f64,
-    /// Restarts around the best designs, as a fraction of `starts`. Default 0.1.
+    /// Restarts around the best designs, as a fraction of `starts`. Default 0.05.
     pub hop_fraction: f64,
 }
 
@@ -67,7 +67,7 @@ impl Default for EngineOptions {
             quick_iterations: 40,
             full_iterations: 400,
             promote_fraction: 0.05,
-            hop_fraction: 0.1,
+            hop_fraction: 0.05,
         }
     }
 }
