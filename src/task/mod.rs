@@ -248,7 +248,8 @@ pub fn build(scenario: &crate::scenario::Scenario) -> Result<Box<dyn Task>, Task
     use crate::scenario::TaskSpec;
     match &scenario.task {
         TaskSpec::Path(p) => Ok(Box::new(PathTask::new(p, &scenario.limits))),
-        TaskSpec::Function(_) | TaskSpec::Motion(_) => Err(TaskError::Invalid {
+        TaskSpec::Motion(m) => Ok(Box::new(PathTask::motion(m, &scenario.limits))),
+        TaskSpec::Function(_) => Err(TaskError::Invalid {
             field: "task".into(),
             message: format!(
                 "{} generation is not available in this build",
