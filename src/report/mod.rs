@@ -1,7 +1,29 @@
-//! Reports for people and programs: the `check` summary and the `sweep` table.
+//! Reports for people and programs: the `check` summary, the `sweep` table, and the
+//! figures and exports of a design (SVG text, no I/O).
+//!
+//! Figures share one visual language ([`style`]): to-scale linkage drawings
+//! ([`draw::linkage_figure`], [`draw::motion_figure`]), plots against the crank angle or the
+//! task's input ([`plots`]), an SMIL animation ([`animate::animation_svg`]) and the CAD/CSV
+//! exports ([`export`]). [`curves`] turns a sweep into the data they draw.
 
+pub mod animate;
 pub mod check;
+pub mod curves;
+pub mod draw;
+pub mod export;
+mod frame;
+mod legend;
+pub mod plots;
+pub mod style;
+#[cfg(test)]
+mod svg_test;
 pub mod table;
+
+pub use animate::animation_svg;
+pub use curves::{angle_branches, curve_branches, motion_poses};
+pub use draw::{footprint, linkage_figure, motion_figure, FramePose};
+pub use export::{cad_svg, csv_curve};
+pub use plots::{angle_plot, error_plot, function_plot, AngleSample};
 
 /// Radians to degrees, rounded to 1e-9 degree so that files do not carry float noise.
 pub fn deg(rad: f64) -> f64 {
