@@ -18,7 +18,8 @@ use crankwright::kinematics::position::{position_at, NewtonOptions};
 use crankwright::kinematics::sweep::{sweep, SweepOptions};
 use crankwright::report::{
     angle_branches, angle_plot, animation_svg, cad_svg, csv_curve, curve_branches, error_plot,
-    footprint, function_plot, linkage_figure, motion_figure, motion_poses, FramePose,
+    footprint, function_plot, linkage_figure, motion_figure, motion_poses, poses_at_cranks,
+    FramePose,
 };
 use crankwright::{Assembly, CouplerPoint, FourBar, Pose, SAFETY_NOTE};
 use nalgebra::{Point2, Vector2};
@@ -56,10 +57,7 @@ fn main() -> anyhow::Result<()> {
         (-1.2, -1.8),
         (2.4, 0.6),
     ];
-    let poses: Vec<Pose> = cranks
-        .iter()
-        .map(|c| position_at(&l, t1 + c.to_radians(), &newton).expect("crank-rocker assembles"))
-        .collect();
+    let poses: Vec<Pose> = poses_at_cranks(&l, &cranks).expect("a crank-rocker assembles");
     let reached: Vec<Point2<f64>> = poses
         .iter()
         .map(|p| l.coupler_point_at(p.theta2, p.theta3))
@@ -220,7 +218,7 @@ pre {{ font-size: 11px; }}
 
     if png {
         let abs = std::fs::canonicalize(&page)?;
-        let shot = out.join("draw_demo.png");
+        let shot = std::fs::canonicalize(&out)?.join("draw_demo.png");
         let profile = tempfile::tempdir()?;
         let status = Command::new("chromium")
             .args([
@@ -235,10 +233,7 @@ pre {{ font-size: 11px; }}
                 "--hide-scrollbars",
             ])
             .arg(format!("--user-data-dir={}", profile.path().display()))
-            .arg(format!(
-                "--screenshot={}",
-                std::fs::canonicalize(&out)?.join("draw_demo.png").display()
-            ))
+            .arg(format!("--screenshot={}", shot.display()))
             .arg("--window-size=1200,3000")
             .arg(format!("file://{}", abs.display()))
             .status();

@@ -134,7 +134,7 @@ pub fn animation_svg(
     let (svg, map) = scene_frame(bbox, units, size, &linkage_legend(!targets.is_empty()));
     let mut layers = String::new();
     layers.push_str(&curve_layer(&map, curve));
-    layers.push_str(&ground_layer(&map, linkage));
+    layers.push_str(&ground_layer(&map, linkage, poses));
     layers.push_str(&targets_layer(&map, targets));
     let (seq, times) = frames(linkage, poses);
     if !seq.is_empty() {
@@ -244,5 +244,18 @@ mod tests {
         for k in 0..n {
             assert_relative_eq!(ax[k], ax[2 * n - 2 - k], epsilon = 1e-9);
         }
+    }
+
+    #[test]
+    fn no_motion_or_one_position_is_still_a_drawing() {
+        let l = crate::report::svg_test::crank_rocker();
+        let svg = animation_svg(&l, &[], &[], &[], "mm", f64::NAN, (300, 200));
+        let doc = parse(&svg);
+        assert!(by_class(&doc, "g", "linkage-pose").is_empty());
+        let one = crate::report::svg_test::closed_poses(&l, &[30.0]);
+        let svg = animation_svg(&l, &one, &[], &[], "mm", -1.0, (300, 200));
+        let doc = parse(&svg);
+        assert_eq!(by_class(&doc, "g", "linkage-pose").len(), 1);
+        assert!(!svg.contains("<animate"));
     }
 }

@@ -6,7 +6,7 @@ use std::f64::consts::TAU;
 use nalgebra::Point2;
 
 use super::plots::AngleSample;
-use crate::kinematics::position::{closed_form, Pose};
+use crate::kinematics::position::{closed_form, position_at, NewtonOptions, Pose};
 use crate::kinematics::range::{wrap_pi, wrap_tau};
 use crate::kinematics::sweep::{Branch, Sweep};
 use crate::linkage::FourBar;
@@ -137,6 +137,18 @@ pub fn angle_branches(linkage: &FourBar, sweep: &Sweep) -> Vec<Vec<AngleSample>>
     out
 }
 
+/// The positions of the design at crank angles measured from the ground line `O2 -> O4`
+/// (degrees, as a result's `crank_angles`), on the design's own assembly: closed form
+/// polished by Newton-Raphson. `None` if the linkage cannot be assembled at one of them.
+pub fn poses_at_cranks(linkage: &FourBar, cranks_deg: &[f64]) -> Option<Vec<Pose>> {
+    let t1 = linkage.ground_angle();
+    let newton = NewtonOptions::default();
+    cranks_deg
+        .iter()
+        .map(|c| position_at(linkage, t1 + c.to_radians(), &newton))
+        .collect()
+}
+
 /// The poses of one motion of the design for the animation: the full turn of a crank, or
 /// for a rocking input its first branch from toggle to toggle.
 pub fn motion_poses(sweep: &Sweep) -> Vec<Pose> {
@@ -212,5 +224,21 @@ mod tests {
             assert!((0.0..360.0).contains(&mid));
         }
         assert_eq!(motion_poses(&sw).len(), angles[0].len());
+        // Outside the rocking range (crank 0: |A - O4| = 1 < |r3 - r4| = 3) nothing assembles.
+        assert!(poses_at_cranks(&l, &[0.0]).is_none());
+    }
+
+    #[test]
+    fn poses_at_cranks_match_the_closed_form() {
+        let l = bar(7.0, 2.0, 9.0, 6.0);
+        let cranks = [0.0, 95.0, 271.5];
+        let poses = poses_at_cranks(&l, &cranks).expect("crank-rocker assembles");
+        for (p, c) in poses.iter().zip(cranks) {
+            let t2 = l.ground_angle() + c.to_radians();
+            let exact = closed_form(&l, t2, Assembly::Open).unwrap();
+            assert_relative_eq!(p.theta2, t2, epsilon = 1e-15);
+            assert_relative_eq!(wrap_pi(p.theta3 - exact.theta3), 0.0, epsilon = 1e-10);
+            assert_relative_eq!(wrap_pi(p.theta4 - exact.theta4), 0.0, epsilon = 1e-10);
+        }
     }
 }

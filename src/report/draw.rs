@@ -199,11 +199,21 @@ pub(crate) fn curve_layer(map: &Map, curve: &[Vec<Point2<f64>>]) -> String {
     )
 }
 
-/// The ground: the line of centres `O2 - O4` and a bearing symbol with hatching under each
-/// fixed pivot (the pivot circles themselves come later, on top of the links).
-pub(crate) fn ground_layer(map: &Map, linkage: &FourBar) -> String {
-    let o2 = map.p(linkage.input_pivot());
-    let o4 = map.p(linkage.output_pivot());
+/// The ground: the line of centres `O2 - O4` and a bearing symbol with hatching at each
+/// fixed pivot (the pivot circles themselves come later, on top of the links). Each symbol
+/// hangs below its pivot unless a link or the line of centres leaves the pivot that way in
+/// one of the drawn `poses`; then it turns to the side (or up) where it is least in the way.
+pub(crate) fn ground_layer(map: &Map, linkage: &FourBar, poses: &[Pose]) -> String {
+    let (o2w, o4w) = (linkage.input_pivot(), linkage.output_pivot());
+    let joints: Vec<Joints> = poses
+        .iter()
+        .map(|p| Joints::of(linkage, p))
+        .filter(Joints::finite)
+        .collect();
+    let crank_dirs: Vec<_> = joints.iter().map(|j| j.a - o2w).collect();
+    let output_dirs: Vec<_> = joints.iter().map(|j| j.b - o4w).collect();
+    let o2 = map.p(o2w);
+    let o4 = map.p(o4w);
     let mut s = String::from(r#"<g class="ground">"#);
     s.push_str(&line(
         "ground-line",
@@ -213,21 +223,61 @@ pub(crate) fn ground_layer(map: &Map, linkage: &FourBar) -> String {
         1.0,
         r#" stroke-dasharray="14 3 2 3""#,
     ));
-    for (x, y) in [o2, o4] {
-        s.push_str(&ground_symbol(x, y));
+    for ((x, y), mut dirs, centres) in [(o2, crank_dirs, o4w - o2w), (o4, output_dirs, o2w - o4w)] {
+        dirs.push(centres);
+        s.push_str(&ground_symbol(x, y, symbol_turn(&dirs)));
     }
     s.push_str("</g>");
     s
 }
 
+/// Quarter turns (0: hanging down, 1: pointing right, 2: up, 3: left; counter-clockwise
+/// on the page) for a ground symbol at a pivot whose links leave in the world directions
+/// `dirs`: the direction whose worst overlap with a link is least, down preferred, then
+/// the sides, then up.
+fn symbol_turn(dirs: &[nalgebra::Vector2<f64>]) -> u8 {
+    // World directions of the symbol for each turn (page y is flipped) and a preference.
+    let options = [
+        (0u8, nalgebra::Vector2::new(0.0, -1.0), 0.0),
+        (1, nalgebra::Vector2::new(1.0, 0.0), 0.08),
+        (3, nalgebra::Vector2::new(-1.0, 0.0), 0.08),
+        (2, nalgebra::Vector2::new(0.0, 1.0), 0.16),
+    ];
+    let worst = |d: &nalgebra::Vector2<f64>| {
+        dirs.iter()
+            .filter_map(|v| {
+                let n = v.norm();
+                (n > 0.0 && n.is_finite()).then(|| v.dot(d) / n)
+            })
+            .fold(-1.0, f64::max)
+    };
+    options
+        .iter()
+        .map(|(turn, d, bias)| (*turn, worst(d).max(0.5) + bias))
+        .min_by(|a, b| a.1.total_cmp(&b.1))
+        .map_or(0, |(turn, _)| turn)
+}
+
 /// A fixed-pivot symbol at pixel `(x, y)`: a bearing block under the pivot standing on a
-/// base line with diagonal hatching below it.
-fn ground_symbol(x: f64, y: f64) -> String {
+/// base line with diagonal hatching below it, turned by `turn` quarter turns
+/// counter-clockwise on the page.
+fn ground_symbol(x: f64, y: f64, turn: u8) -> String {
     let g = style::GROUND.hex();
     let (half, drop, hatch) = (13.0, 15.0, 6.0);
     let base = y + drop;
+    let rotate = if turn % 4 == 0 {
+        String::new()
+    } else {
+        // SVG rotates clockwise on the page for positive angles.
+        format!(
+            r#" transform="rotate({} {} {})""#,
+            -90 * i32::from(turn % 4),
+            num(x),
+            num(y)
+        )
+    };
     let mut s = format!(
-        r#"<g class="ground-symbol"><polygon points="{},{} {},{} {},{}" fill="{}" stroke="{g}" stroke-width="1.3" stroke-linejoin="round"/>"#,
+        r#"<g class="ground-symbol"{rotate}><polygon points="{},{} {},{} {},{}" fill="{}" stroke="{g}" stroke-width="1.3" stroke-linejoin="round"/>"#,
         num(x),
         num(y),
         num(x - 0.62 * half),
@@ -528,7 +578,7 @@ pub fn linkage_figure(
     let (svg, map) = scene_frame(bbox, units, size, &legend);
     let mut layers = String::new();
     layers.push_str(&curve_layer(&map, curve));
-    layers.push_str(&ground_layer(&map, linkage));
+    layers.push_str(&ground_layer(&map, linkage, poses));
     layers.push_str(&poses_layer(&map, linkage, poses));
     layers.push_str(&pivots_layer(&map, linkage));
     layers.push_str(&errors_layer(&map, targets, reached));
@@ -599,7 +649,7 @@ pub fn motion_figure(
     let (svg, map) = scene_frame(bbox, units, size, &legend);
     let mut layers = String::new();
     layers.push_str(&curve_layer(&map, curve));
-    layers.push_str(&ground_layer(&map, linkage));
+    layers.push_str(&ground_layer(&map, linkage, poses));
     layers.push_str(&poses_layer(&map, linkage, poses));
     layers.push_str(&pivots_layer(&map, linkage));
     let reached: Vec<Point2<f64>> = poses
@@ -761,6 +811,29 @@ mod tests {
             assert_relative_eq!(attr(&c, "cx"), o2.0 + s * d.x, epsilon = 0.02);
             assert_relative_eq!(attr(&c, "cy"), o2.1 - s * d.y, epsilon = 0.02);
         }
+    }
+
+    #[test]
+    fn ground_symbols_turn_away_from_links() {
+        use nalgebra::Vector2;
+        assert_eq!(symbol_turn(&[]), 0);
+        // Ground line to the right, link up: hanging down is free.
+        assert_eq!(
+            symbol_turn(&[Vector2::new(1.0, 0.0), Vector2::new(0.1, 1.0)]),
+            0
+        );
+        // A link straight down and the ground line to the right: turn to the left.
+        assert_eq!(
+            symbol_turn(&[Vector2::new(0.0, -1.0), Vector2::new(1.0, 0.0)]),
+            3
+        );
+        // Links down, left and right: only up is free.
+        let dirs = [
+            Vector2::new(0.0, -1.0),
+            Vector2::new(-1.0, 0.0),
+            Vector2::new(1.0, 0.0),
+        ];
+        assert_eq!(symbol_turn(&dirs), 2);
     }
 
     #[test]

@@ -21,6 +21,15 @@ pub const CAD_MARGIN_FRACTION: f64 = 0.05;
 /// `width`/`height` (SVG user units).
 const SVG_LENGTH_UNITS: [&str; 6] = ["mm", "cm", "in", "pt", "pc", "px"];
 
+/// `v` rounded to three significant digits.
+fn round_sig(v: f64) -> f64 {
+    if v == 0.0 || !v.is_finite() {
+        return v;
+    }
+    let scale = 10f64.powi(2 - v.abs().log10().floor() as i32);
+    (v * scale).round() / scale
+}
+
 /// A coordinate at full precision (shortest round-trip form), never `-0`.
 fn full(v: f64) -> String {
     format!("{}", v + 0.0)
@@ -43,8 +52,9 @@ pub fn cad_svg(linkage: &FourBar, pose: &Pose, units: &str) -> String {
     let j = Joints::of(linkage, pose);
     let (lo, hi) = footprint(linkage, std::slice::from_ref(pose));
     let span = (hi.x - lo.x).max(hi.y - lo.y).max(linkage.size() * 1e-6);
-    let r = CAD_CIRCLE_FRACTION * span;
-    let m = r + CAD_MARGIN_FRACTION * span;
+    // Marker sizes rounded to three significant digits: they are not geometry.
+    let r = round_sig(CAD_CIRCLE_FRACTION * span);
+    let m = round_sig(r + CAD_MARGIN_FRACTION * span);
     // viewBox in SVG coordinates: x as is, y negated, so the top edge is -(max y) - margin.
     let (vx, vy) = (lo.x - m, -hi.y - m);
     let (vw, vh) = (hi.x - lo.x + 2.0 * m, hi.y - lo.y + 2.0 * m);
@@ -53,7 +63,7 @@ pub fn cad_svg(linkage: &FourBar, pose: &Pose, units: &str) -> String {
     } else {
         ""
     };
-    let stroke = 0.25 * r;
+    let stroke = round_sig(0.25 * r);
     let pt = |p: Point2<f64>| (full(p.x), full(-p.y));
     let line = |id: &str, p: Point2<f64>, q: Point2<f64>| {
         let ((x1, y1), (x2, y2)) = (pt(p), pt(q));
@@ -116,7 +126,7 @@ pub fn cad_svg(linkage: &FourBar, pose: &Pose, units: &str) -> String {
         circle("B", j.b),
         circle("C", j.c),
     ] {
-        s.push_str("  ");
+        s.push_str("    ");
         s.push_str(&l);
         s.push('\n');
     }

@@ -5,6 +5,28 @@
 //! ([`draw::linkage_figure`], [`draw::motion_figure`]), plots against the crank angle or the
 //! task's input ([`plots`]), an SMIL animation ([`animate::animation_svg`]) and the CAD/CSV
 //! exports ([`export`]). [`curves`] turns a sweep into the data they draw.
+//!
+//! ```
+//! use crankwright::report::{curve_branches, linkage_figure, poses_at_cranks};
+//! use crankwright::{sweep, Assembly, CouplerPoint, FourBar, SweepOptions};
+//! use nalgebra::Point2;
+//!
+//! let l = FourBar::new(
+//!     Point2::new(0.0, 0.0),
+//!     Point2::new(80.0, 0.0),
+//!     25.0,
+//!     70.0,
+//!     55.0,
+//!     CouplerPoint { p: 30.0, q: 15.0 },
+//!     Assembly::Open,
+//! )?;
+//! let curve = curve_branches(&l, &sweep(&l, 2f64.to_radians(), &SweepOptions::default()));
+//! let poses = poses_at_cranks(&l, &[0.0, 120.0]).expect("a crank-rocker assembles");
+//! let svg = linkage_figure(&l, &poses, &curve, &[], &[], "mm", (640, 480));
+//! assert!(svg.starts_with("<svg"));
+//! assert_eq!(svg.matches(r#"class="linkage-pose""#).count(), 2);
+//! # Ok::<(), crankwright::LinkageError>(())
+//! ```
 
 pub mod animate;
 pub mod check;
@@ -20,7 +42,7 @@ mod svg_test;
 pub mod table;
 
 pub use animate::animation_svg;
-pub use curves::{angle_branches, curve_branches, motion_poses};
+pub use curves::{angle_branches, curve_branches, motion_poses, poses_at_cranks};
 pub use draw::{footprint, linkage_figure, motion_figure, FramePose};
 pub use export::{cad_svg, csv_curve};
 pub use plots::{angle_plot, error_plot, function_plot, AngleSample};

@@ -210,33 +210,31 @@ pub fn angle_plot(
             continue;
         }
         let px = mt.px(*t);
+        let marks: String = [&mt, &mb]
+            .iter()
+            .map(|m| {
+                let dots = r#" stroke-dasharray="2 3""#;
+                line(
+                    "mark",
+                    (px, m.rect.1),
+                    (px, m.rect.3),
+                    style::TARGET,
+                    1.0,
+                    dots,
+                )
+            })
+            .collect();
+        let number = (i + 1).to_string();
+        let label = text(
+            px + 3.0,
+            mt.rect.1 + FONT_TICK + 1.0,
+            FONT_TICK,
+            "start",
+            style::TARGET,
+            &number,
+        );
         s.push_str(&format!(
-            r#"<g class="target-mark" data-target="{}">{}{}{}</g>"#,
-            i + 1,
-            line(
-                "mark",
-                (px, mt.rect.1),
-                (px, mt.rect.3),
-                style::TARGET,
-                1.0,
-                r#" stroke-dasharray="2 3""#
-            ),
-            line(
-                "mark",
-                (px, mb.rect.1),
-                (px, mb.rect.3),
-                style::TARGET,
-                1.0,
-                r#" stroke-dasharray="2 3""#
-            ),
-            text(
-                px + 3.0,
-                mt.rect.1 + FONT_TICK + 1.0,
-                FONT_TICK,
-                "start",
-                style::TARGET,
-                &(i + 1).to_string()
-            )
+            r#"<g class="target-mark" data-target="{number}">{marks}{label}</g>"#
         ));
     }
 
@@ -526,5 +524,33 @@ mod tests {
             assert_relative_eq!(attr(&r, "cy"), attr(zero, "y1"), epsilon = 1e-9);
         }
         assert_eq!(subpaths(&by_class(&doc, "path", "error")[0]), 2);
+    }
+
+    #[test]
+    fn empty_and_non_finite_input_gives_clean_svg() {
+        let nan = f64::NAN;
+        let bad = vec![vec![AngleSample {
+            crank: nan,
+            theta3: 1.0,
+            theta4: nan,
+            mu: nan,
+        }]];
+        for svg in [
+            angle_plot(&[], &[], (0, 0)),
+            angle_plot(&bad, &[nan], (300, 200)),
+            function_plot(&[], &[], &[], &[], ("x", "y"), (300, 200)),
+            function_plot(
+                &[1.0, 2.0],
+                &[nan, nan],
+                &[nan, 3.0],
+                &[nan],
+                ("x", "y"),
+                (300, 200),
+            ),
+            error_plot(&[], &[], &[], ("x", "e"), (300, 200)),
+        ] {
+            parse(&svg);
+            assert!(!svg.contains("NaN") && !svg.contains("inf"), "{svg}");
+        }
     }
 }
