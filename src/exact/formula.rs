@@ -699,6 +699,17 @@ mod tests {
         assert!(msg.contains("foo") && msg.contains("column 10"), "{msg}");
     }
 
+    // The synthesis engine evaluates formulas from worker threads.
+    #[test]
+    fn formula_is_shareable_between_threads() {
+        fn shareable<T: Send + Sync + 'static>() {}
+        shareable::<Formula>();
+        shareable::<FormulaError>();
+        let f = Formula::parse("x^2").unwrap();
+        let y = std::thread::scope(|s| s.spawn(|| f.eval(3.0)).join().unwrap()).unwrap();
+        assert_relative_eq!(y, 9.0, max_relative = 1e-15);
+    }
+
     #[test]
     fn undefined_values_are_errors() {
         let f = Formula::parse("ln(x)").unwrap();

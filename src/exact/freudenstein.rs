@@ -232,6 +232,24 @@ impl FreudensteinK {
     }
 }
 
+/// The linkage in Freudenstein's frame: `O2 = (0, 0)`, `O4 = (r1, 0)`, lengths
+/// `[r1, r2, r3, r4]`, the coupler point at joint `A` (function generation does not use it).
+///
+/// # Errors
+/// [`LinkageError`] for lengths that are not positive and finite.
+pub fn linkage_on_x_axis(lengths: [f64; 4], assembly: Assembly) -> Result<FourBar, LinkageError> {
+    let [r1, r2, r3, r4] = lengths;
+    FourBar::new(
+        Point2::new(0.0, 0.0),
+        Point2::new(r1, 0.0),
+        r2,
+        r3,
+        r4,
+        CouplerPoint::default(),
+        assembly,
+    )
+}
+
 /// Solves Freudenstein's equation for `K1, K2, K3`: exactly through three precision points
 /// (3x3 linear solve), or in the least-squares sense of the equation's residuals for more
 /// (singular value decomposition). Least squares here minimises the algebraic residual, not
@@ -357,13 +375,8 @@ pub fn design_from_k(
         .iter()
         .map(|p| p.theta4 + turn(output_flipped))
         .collect();
-    let base = FourBar::new(
-        Point2::new(0.0, 0.0),
-        Point2::new(r1, 0.0),
-        lengths.r2.abs(),
-        lengths.r3,
-        lengths.r4.abs(),
-        CouplerPoint::default(),
+    let base = linkage_on_x_axis(
+        [r1, lengths.r2.abs(), lengths.r3, lengths.r4.abs()],
         Assembly::Open,
     )?;
     // Output-angle errors of each assembly at each point (None: does not assemble).
@@ -583,16 +596,7 @@ mod tests {
     use crate::kinematics::position::{position_at, NewtonOptions};
 
     fn bar(r1: f64, r2: f64, r3: f64, r4: f64, assembly: Assembly) -> FourBar {
-        FourBar::new(
-            Point2::new(0.0, 0.0),
-            Point2::new(r1, 0.0),
-            r2,
-            r3,
-            r4,
-            CouplerPoint::default(),
-            assembly,
-        )
-        .unwrap()
+        linkage_on_x_axis([r1, r2, r3, r4], assembly).unwrap()
     }
 
     fn pairs_of(l: &FourBar, degrees: &[f64]) -> Vec<AnglePair> {

@@ -63,6 +63,13 @@ impl FramePose {
     }
 }
 
+impl From<(Point2<f64>, f64)> for FramePose {
+    /// A pose from `(origin, angle)`, the form of a checked motion task.
+    fn from((origin, angle): (Point2<f64>, f64)) -> Self {
+        Self { origin, angle }
+    }
+}
+
 /// A dyad: a crank from a fixed pivot (global) to a moving pivot (coupler coordinates).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Dyad {
