@@ -89,11 +89,19 @@ pub fn summary_text(s: &crate::synthesis::output::Summary) -> String {
     }
     for d in &s.designs {
         let m = |k: &str| d.measures.get(k).and_then(serde_json::Value::as_f64);
-        let err = match (m("sum_squared_error"), m("rms_error"), m("max_error")) {
+        let mut err = match (m("sum_squared_error"), m("rms_error"), m("max_error")) {
             (Some(a), Some(b), Some(c)) => format!("sum sq {a:.4e}, rms {b:.4e}, max {c:.4e}"),
-            (_, Some(b), Some(c)) => format!("rms {b:.4e}, max {c:.4e}"),
+            (None, Some(b), Some(c)) => {
+                format!("output angle error rms {b:.4} deg, max {c:.4} deg")
+            }
             _ => String::new(),
         };
+        if let Some(a) = m("max_angle_error") {
+            err.push_str(&format!(", max angle error {a:.4} deg"));
+        }
+        if let Some(p) = m("precision_error") {
+            err.push_str(&format!(", at precision points {p:.2e} deg"));
+        }
         let _ = writeln!(
             t,
             "#{:<2} {err}; {}, min transmission {:.1} deg, link ratio {:.2}",
