@@ -178,15 +178,22 @@ mod tests {
     #[test]
     fn unknown_key_is_named_with_suggestion() {
         let bad = VENT.replace("coupler_point", "coupler_pont");
-        let e = parse_designs(Path::new("x.yaml"), &bad).unwrap_err().to_string();
-        assert!(e.contains("coupler_pont") && e.contains("did you mean `coupler_point`"), "{e}");
+        let e = parse_designs(Path::new("x.yaml"), &bad)
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("coupler_pont") && e.contains("did you mean `coupler_point`"),
+            "{e}"
+        );
         assert!(e.starts_with("x.yaml:8:"), "{e}");
     }
 
     #[test]
     fn negative_length_is_named() {
         let bad = VENT.replace("coupler: 70.0", "coupler: -70.0");
-        let e = parse_designs(Path::new("x.yaml"), &bad).unwrap_err().to_string();
+        let e = parse_designs(Path::new("x.yaml"), &bad)
+            .unwrap_err()
+            .to_string();
         assert!(e.contains("coupler") && e.contains("-70"), "{e}");
     }
 }

@@ -92,7 +92,10 @@ pub fn read_text(path: &Path) -> Result<String, InputError> {
 ///
 /// # Errors
 /// [`InputError::Parse`] for malformed YAML or a structure that does not match `T`.
-pub fn parse_yaml<T: serde::de::DeserializeOwned>(path: &Path, text: &str) -> Result<T, InputError> {
+pub fn parse_yaml<T: serde::de::DeserializeOwned>(
+    path: &Path,
+    text: &str,
+) -> Result<T, InputError> {
     serde_yaml::from_str(text).map_err(|e| yaml_error(path, &e))
 }
 

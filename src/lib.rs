@@ -41,7 +41,9 @@ pub mod report;
 pub use design::{load_designs, Design, DesignFile};
 pub use input::InputError;
 pub use kinematics::analysis::{analyse, Analysis, AnalysisOptions};
-pub use kinematics::position::{closed_form, solve_position, NewtonOptions, Pose, PositionSolve, PositionStatus};
+pub use kinematics::position::{
+    closed_form, solve_position, NewtonOptions, Pose, PositionSolve, PositionStatus,
+};
 pub use kinematics::range::InputRange;
 pub use kinematics::rates::{rates, Rates};
 pub use kinematics::sweep::{sweep, Sweep, SweepOptions, TraceEnd, Tracer};

@@ -402,10 +402,16 @@ mod tests {
         assert_eq!(bar(7.0, 2.0, 9.0, 6.0).grashof(), GrashofClass::CrankRocker);
         assert_eq!(bar(2.0, 7.0, 9.0, 6.0).grashof(), GrashofClass::DoubleCrank);
         assert_eq!(bar(7.0, 6.0, 9.0, 2.0).grashof(), GrashofClass::RockerCrank);
-        assert_eq!(bar(7.0, 6.0, 2.0, 9.0).grashof(), GrashofClass::DoubleRocker);
+        assert_eq!(
+            bar(7.0, 6.0, 2.0, 9.0).grashof(),
+            GrashofClass::DoubleRocker
+        );
         assert_eq!(bar(7.0, 3.0, 9.0, 6.0).grashof(), GrashofClass::CrankRocker);
         assert_eq!(bar(7.0, 4.0, 9.0, 6.0).grashof(), GrashofClass::ChangePoint);
-        assert_eq!(bar(5.0, 4.0, 9.0, 6.0).grashof(), GrashofClass::TripleRocker);
+        assert_eq!(
+            bar(5.0, 4.0, 9.0, 6.0).grashof(),
+            GrashofClass::TripleRocker
+        );
         // Parallelogram: s + l = p + q.
         assert_eq!(bar(5.0, 2.0, 5.0, 2.0).grashof(), GrashofClass::ChangePoint);
     }

@@ -81,7 +81,11 @@ fn pick(path: &Path, index: usize) -> Result<Design, Failure> {
 
 fn run(cli: Cli) -> anyhow::Result<ExitCode> {
     match cli.command {
-        Command::Check { design, index, json } => {
+        Command::Check {
+            design,
+            index,
+            json,
+        } => {
             let d = pick(&design, index)?;
             let report = CheckReport::new(&d);
             if json {
@@ -107,13 +111,14 @@ fn run(cli: Cli) -> anyhow::Result<ExitCode> {
             json,
         } => {
             if !(step.is_finite() && step > 0.0 && step <= 360.0) {
-                return Err(Failure::Usage(format!(
-                    "--step {step}: expected degrees in (0, 360]"
-                ))
-                .into());
+                return Err(
+                    Failure::Usage(format!("--step {step}: expected degrees in (0, 360]")).into(),
+                );
             }
             if !speed.is_finite() {
-                return Err(Failure::Usage(format!("--speed {speed}: expected a finite rpm")).into());
+                return Err(
+                    Failure::Usage(format!("--speed {speed}: expected a finite rpm")).into(),
+                );
             }
             let d = pick(&design, index)?;
             let rows = sweep_rows(&d.linkage, step, speed);
@@ -122,11 +127,23 @@ fn run(cli: Cli) -> anyhow::Result<ExitCode> {
                     .with_context(|| format!("writing {}", path.display()))?;
             }
             if json {
-                println!("{}", serde_json::to_string_pretty(&serde_json::json!({ "rows": rows }))?);
+                println!(
+                    "{}",
+                    serde_json::to_string_pretty(&serde_json::json!({ "rows": rows }))?
+                );
             } else {
                 println!(
                     "{:>9} {:>9} {:>9} {:>8} {:>11} {:>11} {:>10} {:>10} {:>11} {:>11}",
-                    "theta2", "theta3", "theta4", "mu", "cx", "cy", "omega3", "omega4", "alpha3", "alpha4"
+                    "theta2",
+                    "theta3",
+                    "theta4",
+                    "mu",
+                    "cx",
+                    "cy",
+                    "omega3",
+                    "omega4",
+                    "alpha3",
+                    "alpha4"
                 );
                 for r in &rows {
                     println!(
@@ -134,10 +151,14 @@ fn run(cli: Cli) -> anyhow::Result<ExitCode> {
                         r.theta2, r.theta3, r.theta4, r.mu, r.cx, r.cy, r.omega3, r.omega4, r.alpha3, r.alpha4
                     );
                 }
-                if rows.is_empty() {
-                    eprintln!("{}: the linkage cannot be assembled at any crank angle", design.display());
-                    return Ok(ExitCode::from(1));
-                }
+            }
+            // With --json too: no row at all means the design fails its basic requirement.
+            if rows.is_empty() {
+                eprintln!(
+                    "{}: the linkage cannot be assembled at any crank angle",
+                    design.display()
+                );
+                return Ok(ExitCode::from(1));
             }
             Ok(ExitCode::SUCCESS)
         }

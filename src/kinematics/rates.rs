@@ -33,12 +33,21 @@ pub struct Rates {
     pub acceleration: Vector2<f64>,
 }
 
+/// `|sin(theta3 - theta4)|` below which the Jacobian counts as singular for rate solves.
+const SINGULAR_SINE: f64 = 1e-14;
+
 /// Solves `J x = rhs` for the loop-closure Jacobian at `(t3, t4)`; `None` at a toggle.
 #[inline]
-fn solve_j(r3: f64, r4: f64, e3: Vector2<f64>, e4: Vector2<f64>, rhs: Vector2<f64>) -> Option<(f64, f64)> {
+fn solve_j(
+    r3: f64,
+    r4: f64,
+    e3: Vector2<f64>,
+    e4: Vector2<f64>,
+    rhs: Vector2<f64>,
+) -> Option<(f64, f64)> {
     // J = [r3 i e3, -r4 i e4] as columns, i e = perp(e). det = r3 r4 sin(t3 - t4).
     let s34 = e3.y * e4.x - e3.x * e4.y;
-    if s34.abs() < 1e-14 {
+    if s34.abs() < SINGULAR_SINE {
         return None;
     }
     // Column form: r3 x3 perp(e3) - r4 x4 perp(e4) = rhs. Dot with e4 and e3:
@@ -64,16 +73,49 @@ pub fn velocity_ratios(linkage: &FourBar, pose: &Pose) -> Option<(f64, f64)> {
     )
 }
 
+/// First and second derivatives of `theta3` and `theta4` with respect to `theta2`,
+/// `[k3, k4, k3', k4']`, from the unit vectors `e2`, `e3`, `e4` of a solved pose: the
+/// velocity and acceleration solves for `w2 = 1`, `a2 = 0`. `None` at a toggle.
+#[inline]
+pub(crate) fn ratio_derivatives(
+    linkage: &FourBar,
+    e2: Vector2<f64>,
+    e3: Vector2<f64>,
+    e4: Vector2<f64>,
+) -> Option<[f64; 4]> {
+    let (r2, r3, r4) = (
+        linkage.input_link(),
+        linkage.coupler(),
+        linkage.output_link(),
+    );
+    // The two solves of `solve_j` with one shared reciprocal of the determinant.
+    let s34 = e3.y * e4.x - e3.x * e4.y;
+    if s34.abs() < SINGULAR_SINE {
+        return None;
+    }
+    let inv = 1.0 / (r3 * r4 * s34);
+    let (inv3, inv4) = (-r4 * inv, r3 * inv);
+    let v = -r2 * perp(e2);
+    let (k3, k4) = (v.dot(&e4) * inv3, -v.dot(&e3) * inv4);
+    let w = r2 * e2 + r3 * k3 * k3 * e3 - r4 * k4 * k4 * e4;
+    let (a3, a4) = (w.dot(&e4) * inv3, -w.dot(&e3) * inv4);
+    Some([k3, k4, a3, a4])
+}
+
 /// Velocities and accelerations at `pose` for crank speed `omega2` (rad/s) and crank
 /// acceleration `alpha2` (rad/s^2). `None` at a toggle, where the output's rates are unbounded.
 pub fn rates(linkage: &FourBar, pose: &Pose, omega2: f64, alpha2: f64) -> Option<Rates> {
-    let (r2, r3, r4) = (linkage.input_link(), linkage.coupler(), linkage.output_link());
+    let (r2, r3, r4) = (
+        linkage.input_link(),
+        linkage.coupler(),
+        linkage.output_link(),
+    );
     let e2 = unit(pose.theta2);
     let e3 = unit(pose.theta3);
     let e4 = unit(pose.theta4);
     let (w3, w4) = solve_j(r3, r4, e3, e4, -r2 * omega2 * perp(e2))?;
-    let rhs = r2 * omega2 * omega2 * e2 - r2 * alpha2 * perp(e2) + r3 * w3 * w3 * e3
-        - r4 * w4 * w4 * e4;
+    let rhs =
+        r2 * omega2 * omega2 * e2 - r2 * alpha2 * perp(e2) + r3 * w3 * w3 * e3 - r4 * w4 * w4 * e4;
     let (a3, a4) = solve_j(r3, r4, e3, e4, rhs)?;
     let cp = linkage.coupler_point();
     // Coupler point offset from A: (p + i q) e3.
@@ -133,8 +175,10 @@ mod tests {
             let d4 = wrap(pp.theta4 - pm.theta4) / (2.0 * h) * w2;
             assert_relative_eq!(r.omega3, d3, epsilon = 1e-6, max_relative = 1e-6);
             assert_relative_eq!(r.omega4, d4, epsilon = 1e-6, max_relative = 1e-6);
-            let dd3 = (wrap(pp.theta3 - p0.theta3) - wrap(p0.theta3 - pm.theta3)) / (h * h) * w2 * w2;
-            let dd4 = (wrap(pp.theta4 - p0.theta4) - wrap(p0.theta4 - pm.theta4)) / (h * h) * w2 * w2;
+            let dd3 =
+                (wrap(pp.theta3 - p0.theta3) - wrap(p0.theta3 - pm.theta3)) / (h * h) * w2 * w2;
+            let dd4 =
+                (wrap(pp.theta4 - p0.theta4) - wrap(p0.theta4 - pm.theta4)) / (h * h) * w2 * w2;
             assert_relative_eq!(r.alpha3, dd3, epsilon = 1e-3, max_relative = 1e-3);
             assert_relative_eq!(r.alpha4, dd4, epsilon = 1e-3, max_relative = 1e-3);
             let cp = |p: &Pose| l.coupler_point_at(p.theta2, p.theta3);
