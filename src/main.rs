@@ -294,13 +294,14 @@ fn run(cli: Cli) -> anyhow::Result<ExitCode> {
                         r.theta2, r.theta3, r.theta4, r.mu, r.cx, r.cy, r.omega3, r.omega4, r.alpha3, r.alpha4
                     );
                 }
-                if rows.is_empty() {
-                    eprintln!(
-                        "{}: the linkage cannot be assembled at any crank angle",
-                        design.display()
-                    );
-                    return Ok(ExitCode::from(1));
-                }
+            }
+            // With --json too: no row at all means the design fails its basic requirement.
+            if rows.is_empty() {
+                eprintln!(
+                    "{}: the linkage cannot be assembled at any crank angle",
+                    design.display()
+                );
+                return Ok(ExitCode::from(1));
             }
             Ok(ExitCode::SUCCESS)
         }
