@@ -132,3 +132,28 @@ fn planted_relative_timing_is_recovered() {
     let rms = (best.error / pts.len() as f64).sqrt();
     assert!(rms < 1e-9 * task.frame().scale, "rms {rms}");
 }
+
+// Five poses: Burmester's points give the exact dyads, so even a small budget recovers the
+// planted linkage (half the motion task's starts come from the exact method). Reference:
+// the planted linkage's closed-form positions.
+#[test]
+fn planted_five_pose_motion_is_recovered_from_burmester_starts() {
+    use crankwright::scenario::MotionSpec;
+    let l = planted();
+    let poses = [20.0, 65.0, 110.0, 150.0, 200.0]
+        .iter()
+        .map(|d: &f64| {
+            let t2 = l.ground_angle() + d.to_radians();
+            let p = closed_form(&l, t2, l.assembly()).unwrap();
+            (l.coupler_point_at(t2, p.theta3), p.theta3 - 0.4)
+        })
+        .collect();
+    let task = PathTask::motion(&MotionSpec { poses }, &Limits::default());
+    let out = synthesize(&task, &options(40), &AtomicBool::new(false), &Silent);
+    let best = &out.designs.first().expect("a design").design;
+    assert!(
+        best.error.sqrt() < 1e-8 * task.frame().scale,
+        "error {}",
+        best.error
+    );
+}

@@ -48,7 +48,7 @@ pub const DEFAULT_MAX_RATIO: f64 = 20.0;
 /// Values of the function: a parsed formula or a table interpolated linearly.
 #[derive(Debug, Clone)]
 enum Source {
-    Formula(Formula),
+    Formula(Box<Formula>),
     Table(Vec<(f64, f64)>),
 }
 
@@ -117,7 +117,7 @@ impl FunctionTask {
                     .map_err(|e| task_err("task.function.formula", e.to_string()))?;
                 f.check_range(spec.x0, spec.xf, 1001)
                     .map_err(|e| task_err("task.function.formula", e.to_string()))?;
-                Source::Formula(f)
+                Source::Formula(Box::new(f))
             }
             FunctionSource::Table(t) => Source::Table(t.clone()),
         };
@@ -359,7 +359,16 @@ impl Task for FunctionTask {
                     }
                 })
                 .collect();
-            if let Ok(d) = design(&pairs, 1.0, &FreudensteinOptions::default()) {
+            let usable = |d: &crate::exact::freudenstein::FreudensteinDesign| {
+                // A flipped link needs its start angle turned by half a turn: impossible when
+                // that start angle is prescribed.
+                !(d.input_flipped && self.input_start.is_some()
+                    || d.output_flipped && self.output_start.is_some())
+            };
+            if let Some(d) = design(&pairs, 1.0, &FreudensteinOptions::default())
+                .ok()
+                .filter(usable)
+            {
                 let l = d.linkage;
                 let r = [l.input_link(), l.coupler(), l.output_link()];
                 if r.iter()
@@ -369,7 +378,6 @@ impl Task for FunctionTask {
                 {
                     x[..3].copy_from_slice(&r);
                     let mut i = k;
-                    // A flipped link is the same link turned by half a turn.
                     if self.input_start.is_none() {
                         x[i] = a0 + if d.input_flipped { PI } else { 0.0 };
                         i += 1;
@@ -377,11 +385,7 @@ impl Task for FunctionTask {
                     if self.output_start.is_none() {
                         x[i] = b0 + if d.output_flipped { PI } else { 0.0 };
                     }
-                    if !(d.input_flipped && self.input_start.is_some())
-                        && !(d.output_flipped && self.output_start.is_some())
-                    {
-                        assembly = l.assembly();
-                    }
+                    assembly = l.assembly();
                 }
             }
         }

@@ -12,16 +12,25 @@
 //! increments adding up to more than a turn. Error measure: `sum |C(phi_i) - P_i|^2` (the
 //! measure of most published benchmark tables), also reported as RMS and max distance; for
 //! motion the ranking error adds `sum (size * angle error)^2`.
+//!
+//! For three to five poses, half of the motion task's starts come from the exact methods of
+//! Burmester theory (see [`crate::exact::motion`]): two dyads that guide the frame through
+//! the poses exactly, so that refinement starts at zero error and verification decides
+//! whether the linkage can run through the poses in order.
 
 use std::f64::consts::TAU;
 
-use nalgebra::{DMatrix, Point2};
+use nalgebra::{DMatrix, Point2, Vector2};
 use rand::Rng;
 use rand_chacha::ChaCha8Rng;
 
 use super::check::check_motion;
 use super::layout::{Layout, MIN_INCREMENT, PENALTY_WEIGHT};
 use super::{Frame, Mode, Rejection, Task, Verified};
+use crate::exact::motion::{
+    burmester_curve, burmester_points, dyads_to_linkage, three_pose_dyad, BurmesterOptions, Dyad,
+    FramePose,
+};
 use crate::kinematics::range::wrap_pi;
 use crate::kinematics::sweep::SweepOptions;
 use crate::linkage::Assembly;
@@ -42,6 +51,8 @@ pub struct PathTask {
     frame: Frame,
     /// Target frame angles (radians), for motion generation.
     angles: Option<Vec<f64>>,
+    /// Dyads of the exact (Burmester) solution for four or five poses, internal units.
+    dyads: Vec<Dyad>,
     layout: Layout,
     targets: Vec<Point2<f64>>,
     user_targets: Vec<Point2<f64>>,
@@ -89,6 +100,7 @@ impl PathTask {
         PathTask {
             frame,
             angles: None,
+            dyads: Vec::new(),
             layout: Layout::new(limits, &frame, true),
             targets,
             user_targets: spec.points.clone(),
@@ -108,7 +120,92 @@ impl PathTask {
         };
         let mut task = Self::new(&path, limits);
         task.angles = Some(spec.poses.iter().map(|p| p.1).collect());
+        let poses = task.exact_poses();
+        let opts = BurmesterOptions::default();
+        task.dyads = match poses.len() {
+            4 => burmester_curve(&[poses[0], poses[1], poses[2], poses[3]], &opts)
+                .unwrap_or_default(),
+            5 => burmester_points(&[poses[0], poses[1], poses[2], poses[3], poses[4]], &opts)
+                .unwrap_or_default(),
+            _ => Vec::new(),
+        };
         task
+    }
+
+    /// The motion targets as frame poses in internal units.
+    fn exact_poses(&self) -> Vec<FramePose> {
+        match &self.angles {
+            Some(a) => self
+                .targets
+                .iter()
+                .zip(a)
+                .map(|(p, a)| FramePose {
+                    origin: *p,
+                    angle: *a,
+                })
+                .collect(),
+            None => Vec::new(),
+        }
+    }
+
+    /// A start from the exact methods of motion generation (Burmester theory): two dyads
+    /// that guide the coupler frame through the poses exactly (three poses: moving pivots
+    /// drawn at random, fixed pivots at the circle centres; four: two points of the
+    /// circle-point curve; five: two Burmester points), encoded as variables with the crank
+    /// angles at the poses. `None` when no such start applies or the dyads do not make a
+    /// linkage.
+    fn exact_start(&self, rng: &mut ChaCha8Rng) -> Option<(Vec<f64>, Mode)> {
+        let poses = self.exact_poses();
+        let (d_in, d_out) = match poses.len() {
+            3 => {
+                let three = [poses[0], poses[1], poses[2]];
+                let mut draw = || {
+                    let m = Vector2::new(rng.random_range(-2.0..2.0), rng.random_range(-2.0..2.0));
+                    three_pose_dyad(&three, m)
+                };
+                (draw()?, draw()?)
+            }
+            4 | 5 if self.dyads.len() >= 2 => {
+                let i = rng.random_range(0..self.dyads.len());
+                let mut j = rng.random_range(0..self.dyads.len() - 1);
+                if j >= i {
+                    j += 1;
+                }
+                (self.dyads[i], self.dyads[j])
+            }
+            _ => return None,
+        };
+        let l = dyads_to_linkage(&d_in, &d_out, &poses)?;
+        let mut x = self.layout.encode(&l)?;
+        let t1 = l.ground_angle();
+        let a0 = d_in.moving_at(&poses[0]);
+        let b0 = d_out.moving_at(&poses[0]);
+        let theta3 = (b0.y - a0.y).atan2(b0.x - a0.x);
+        x.push(wrap_pi(poses[0].angle - theta3));
+        let phis: Vec<f64> = poses.iter().map(|p| d_in.crank_angle(p) - t1).collect();
+        let dir = if wrap_pi(phis[1] - phis[0]) >= 0.0 {
+            1.0
+        } else {
+            -1.0
+        };
+        x.push(phis[0].rem_euclid(TAU));
+        for w in phis.windows(2) {
+            x.push(((w[1] - w[0]) * dir).rem_euclid(TAU).max(MIN_INCREMENT));
+        }
+        let (lo, hi) = self.bounds();
+        if x.iter()
+            .zip(lo.iter().zip(&hi))
+            .any(|(v, (a, b))| v < a || v > b)
+        {
+            return None;
+        }
+        Some((
+            x,
+            Mode {
+                assembly: l.assembly(),
+                direction: if dir > 0.0 { 1 } else { -1 },
+            },
+        ))
     }
 
     /// Residual rows per target.
@@ -229,6 +326,11 @@ impl Task for PathTask {
     }
 
     fn sample(&self, rng: &mut ChaCha8Rng) -> (Vec<f64>, Mode) {
+        if self.angles.is_some() && rng.random_bool(0.5) {
+            if let Some(start) = self.exact_start(rng) {
+                return start;
+            }
+        }
         let mut x = self.layout.sample(rng);
         if self.angles.is_some() {
             x.push(rng.random_range(-std::f64::consts::PI..std::f64::consts::PI));
