@@ -1,3 +1,137 @@
-//! Position sweep benchmark (written in the kinematics work).
+//! Positions per second of a 360-step Newton-Raphson continuation sweep (tolerance `1e-12`
+//! of the linkage size) against the closed-form circle intersection at the same 360 crank
+//! angles, for a crank-rocker and a double-crank. Target (issue 2): the sweep costs at most
+//! 1.5 times the closed form. After the criterion run the bench prints the measured ratio
+//! for each linkage, read from criterion's own estimates.
+//!
+//! Run with `cargo bench --bench position_sweep`.
 
-fn main() {}
+use std::hint::black_box;
+use std::path::PathBuf;
+
+use crankwright::{closed_form, sweep, Assembly, CouplerPoint, FourBar, SweepOptions};
+use criterion::{BenchmarkId, Criterion, Throughput};
+use nalgebra::Point2;
+
+/// Crank angles per sweep.
+const POSITIONS: usize = 360;
+/// The issue's target: Newton-Raphson sweep time over closed-form time.
+const TARGET_RATIO: f64 = 1.5;
+const GROUP: &str = "position_sweep";
+
+/// The benchmarked linkages: invented demo proportions of each Grashof class that turns
+/// its crank fully.
+fn linkages() -> Vec<(&'static str, FourBar)> {
+    let mk = |o4: (f64, f64), r2, r3, r4, cp: (f64, f64), asm| {
+        FourBar::new(
+            Point2::new(0.0, 0.0),
+            Point2::new(o4.0, o4.1),
+            r2,
+            r3,
+            r4,
+            CouplerPoint { p: cp.0, q: cp.1 },
+            asm,
+        )
+        .expect("valid demo linkage")
+    };
+    vec![
+        // The vent-opener demo design (scenarios/vent-opener.design.yaml).
+        (
+            "crank-rocker",
+            mk((80.0, 0.0), 25.0, 70.0, 55.0, (30.0, 15.0), Assembly::Open),
+        ),
+        // Shortest link is the ground: both cranks turn; tilted ground line, crossed.
+        (
+            "double-crank",
+            mk(
+                (18.0, 9.0),
+                45.0,
+                60.0,
+                50.0,
+                (20.0, -10.0),
+                Assembly::Crossed,
+            ),
+        ),
+    ]
+}
+
+fn bench(c: &mut Criterion) {
+    let step = 1f64.to_radians();
+    let options = SweepOptions::default();
+    let mut group = c.benchmark_group(GROUP);
+    group.throughput(Throughput::Elements(POSITIONS as u64));
+    for (name, l) in linkages() {
+        // Sanity: the sweep really produces the 360 positions being compared.
+        let s = sweep(&l, step, &options);
+        assert_eq!(s.branches.len(), 1, "{name} must turn its crank fully");
+        assert_eq!(s.branches[0].poses.len(), POSITIONS);
+        group.bench_with_input(BenchmarkId::new("newton_sweep", name), &l, |b, l| {
+            b.iter(|| sweep(black_box(l), black_box(step), &options))
+        });
+        group.bench_with_input(BenchmarkId::new("closed_form", name), &l, |b, l| {
+            b.iter(|| {
+                let asm = l.assembly();
+                let mut out = Vec::with_capacity(POSITIONS);
+                for k in 0..POSITIONS {
+                    out.push(closed_form(black_box(l), k as f64 * step, asm));
+                }
+                out
+            })
+        });
+    }
+    group.finish();
+}
+
+/// Criterion's output directory: `$CRITERION_HOME`, else `criterion/` in the target directory
+/// that holds this bench binary (`target/release/deps/position_sweep-*`).
+fn criterion_home() -> Option<PathBuf> {
+    if let Some(h) = std::env::var_os("CRITERION_HOME") {
+        return Some(PathBuf::from(h));
+    }
+    let exe = std::env::current_exe().ok()?;
+    Some(exe.parent()?.parent()?.parent()?.join("criterion"))
+}
+
+/// Mean time per iteration (ns) of one benchmark, from criterion's `estimates.json`.
+fn mean_ns(home: &std::path::Path, function: &str, name: &str) -> Option<f64> {
+    let path = home
+        .join(GROUP)
+        .join(function)
+        .join(name)
+        .join("new")
+        .join("estimates.json");
+    let text = std::fs::read_to_string(path).ok()?;
+    let v: serde_json::Value = serde_json::from_str(&text).ok()?;
+    v["mean"]["point_estimate"].as_f64()
+}
+
+fn report_ratios() {
+    let Some(home) = criterion_home() else {
+        return;
+    };
+    println!("\nNewton-Raphson sweep vs closed form ({POSITIONS} positions, target ratio <= {TARGET_RATIO}):");
+    for (name, _) in linkages() {
+        let (Some(nr), Some(cf)) = (
+            mean_ns(&home, "newton_sweep", name),
+            mean_ns(&home, "closed_form", name),
+        ) else {
+            println!("  {name}: no estimates found under {}", home.display());
+            continue;
+        };
+        let per_s = |ns: f64| POSITIONS as f64 / (ns * 1e-9);
+        let ratio = nr / cf;
+        println!(
+            "  {name:13} newton {:>6.2} M positions/s, closed form {:>6.2} M positions/s, ratio {ratio:.2} {}",
+            per_s(nr) / 1e6,
+            per_s(cf) / 1e6,
+            if ratio <= TARGET_RATIO { "(meets target)" } else { "(ABOVE TARGET)" }
+        );
+    }
+}
+
+fn main() {
+    let mut c = Criterion::default().configure_from_args();
+    bench(&mut c);
+    c.final_summary();
+    report_ratios();
+}

@@ -1,7 +1,9 @@
 //! Runs the bundled published path-synthesis cases and prints, for each, the best published
 //! error, crankwright's error, the time and the residual evaluations.
 //!
-//! `cargo run --release --example published_cases [-- --threads N]`
+//! `cargo run --release --example published_cases [-- --threads N] [--promote F] [--hop F] [--starts N]`
+//! (`--promote` and `--hop` set the engine's deepen and hop fractions, for measuring what
+//! each phase buys.)
 
 use std::path::Path;
 use std::sync::atomic::AtomicBool;
@@ -24,6 +26,16 @@ fn main() -> anyhow::Result<()> {
         .position(|a| a == "--threads")
         .and_then(|i| args.get(i + 1))
         .and_then(|v| v.parse().ok());
+    let fraction = |flag: &str| {
+        args.iter()
+            .position(|a| a == flag)
+            .and_then(|i| args.get(i + 1))
+            .and_then(|v| v.parse::<f64>().ok())
+    };
+    let defaults = EngineOptions::default();
+    let promote_fraction = fraction("--promote").unwrap_or(defaults.promote_fraction);
+    let hop_fraction = fraction("--hop").unwrap_or(defaults.hop_fraction);
+    let starts = fraction("--starts").map(|v| v as usize);
     let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/published");
     let bars: Vec<Bar> = serde_yaml::from_str(&std::fs::read_to_string(dir.join("bars.yaml"))?)?;
     println!(
@@ -35,10 +47,12 @@ fn main() -> anyhow::Result<()> {
         let s = scenario.search;
         let options = EngineOptions {
             seed: s.seed,
-            starts: s.starts,
+            starts: starts.unwrap_or(s.starts),
             keep: s.keep,
             time_limit: Duration::from_secs_f64(s.time_limit),
             threads,
+            promote_fraction,
+            hop_fraction,
             ..EngineOptions::default()
         };
         let out = synthesize(task.as_ref(), &options, &AtomicBool::new(false), &Silent);

@@ -201,16 +201,53 @@ fn linkage_field(e: &LinkageError) -> String {
 /// the rest of the design. Returns the offending key and the message. Non-finite and
 /// non-positive values are left to [`FourBar::new`], which names them.
 fn check_scale(f: &DesignFile) -> Result<(), (&'static str, String)> {
+    scale_problem(
+        [f.input_pivot[0], f.input_pivot[1]],
+        [f.output_pivot[0], f.output_pivot[1]],
+        [f.input_link, f.coupler, f.output_link],
+        f.coupler_point,
+    )
+}
+
+/// The problem, if any, that would make a design file holding `linkage` unreadable (see
+/// [`MAX_MAGNITUDE`] and [`MIN_RELATIVE_LENGTH`]): synthesis rejects such candidates, so that
+/// every design it writes can be read back.
+pub fn linkage_scale_problem(linkage: &FourBar) -> Option<String> {
+    let (a, b, cp) = (
+        linkage.input_pivot(),
+        linkage.output_pivot(),
+        linkage.coupler_point(),
+    );
+    scale_problem(
+        [a.x, a.y],
+        [b.x, b.y],
+        [
+            linkage.input_link(),
+            linkage.coupler(),
+            linkage.output_link(),
+        ],
+        [cp.p, cp.q],
+    )
+    .err()
+    .map(|(_, m)| m)
+}
+
+fn scale_problem(
+    o2: [f64; 2],
+    o4: [f64; 2],
+    links: [f64; 3],
+    cp: [f64; 2],
+) -> Result<(), (&'static str, String)> {
     let numbers = [
-        ("input_pivot[0]", f.input_pivot[0]),
-        ("input_pivot[1]", f.input_pivot[1]),
-        ("output_pivot[0]", f.output_pivot[0]),
-        ("output_pivot[1]", f.output_pivot[1]),
-        ("input_link", f.input_link),
-        ("coupler", f.coupler),
-        ("output_link", f.output_link),
-        ("coupler_point[0]", f.coupler_point[0]),
-        ("coupler_point[1]", f.coupler_point[1]),
+        ("input_pivot[0]", o2[0]),
+        ("input_pivot[1]", o2[1]),
+        ("output_pivot[0]", o4[0]),
+        ("output_pivot[1]", o4[1]),
+        ("input_link", links[0]),
+        ("coupler", links[1]),
+        ("output_link", links[2]),
+        ("coupler_point[0]", cp[0]),
+        ("coupler_point[1]", cp[1]),
     ];
     let mut largest: f64 = 0.0;
     for (key, v) in numbers {
@@ -226,19 +263,21 @@ fn check_scale(f: &DesignFile) -> Result<(), (&'static str, String)> {
             largest = largest.max(v.abs());
         }
     }
-    let ground = (f.output_pivot[0] - f.input_pivot[0]).hypot(f.output_pivot[1] - f.input_pivot[1]);
+    let ground = (o4[0] - o2[0]).hypot(o4[1] - o2[1]);
     let lengths = [
         ("output_pivot", "ground link", ground),
-        ("input_link", "input_link", f.input_link),
-        ("coupler", "coupler", f.coupler),
-        ("output_link", "output_link", f.output_link),
+        ("input_link", "input_link", links[0]),
+        ("coupler", "coupler", links[1]),
+        ("output_link", "output_link", links[2]),
     ];
     for (key, name, v) in lengths {
         if v.is_finite() && v > 0.0 && v < MIN_RELATIVE_LENGTH * largest {
             return Err((
                 key,
                 format!(
-                    "{name} = {v} is shorter than {MIN_RELATIVE_LENGTH:e} of the design's                      largest dimension ({largest}): too small for the position solver to                      resolve; check the units"
+                    "{name} = {v:e} is shorter than {MIN_RELATIVE_LENGTH:e} of the design's \
+                     largest dimension ({largest:e}): too small for the position solver to \
+                     resolve; check the units"
                 ),
             ));
         }

@@ -33,6 +33,7 @@
 //! local machinery codes and licensed engineering practice.
 
 pub mod design;
+pub mod exact;
 pub mod feasibility;
 pub mod fsutil;
 pub mod input;

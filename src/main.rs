@@ -326,6 +326,7 @@ fn run(cli: Cli) -> anyhow::Result<ExitCode> {
                     );
                 }
             }
+            // With --json too: no row at all means the design fails its basic requirement.
             if rows.is_empty() {
                 if CheckReport::new(&d).assembles {
                     eprintln!(

@@ -540,6 +540,12 @@ fn check_function(c: &Checker, f: &FunctionFile) -> Result<FunctionSpec, InputEr
     if zero_width {
         return Err(c.err("task.function.x", format!("[{x0}, {xf}] has zero width")));
     }
+    if let FunctionSource::Formula(text) = &source {
+        let f = crate::exact::formula::Formula::parse(text)
+            .map_err(|e| c.err("task.function.formula", format!("{text:?}: {e}")))?;
+        f.check_range(x0, xf, 1001)
+            .map_err(|e| c.err("task.function.formula", format!("{text:?}: {e}")))?;
+    }
     if let FunctionSource::Table(t) = &source {
         let (tmin, tmax) = (t[0].0, t[t.len() - 1].0);
         if x0.min(xf) < tmin || x0.max(xf) > tmax {

@@ -376,6 +376,45 @@ fn motion_and_function_tasks_are_checked_when_read() {
         &["task.function", "either formula or table"],
     );
     bad_scenario(
+        &f("    x: [1, 2]\n    output_span: 60\n").replace("x^2", "x^2 +"),
+        &[
+            "s.yaml:3:14",
+            "task.function.formula",
+            "missing",
+            "column 6",
+        ],
+    );
+    bad_scenario(
+        &f("    x: [1, 2]\n    output_span: 60\n").replace("x^2", "foo(x)"),
+        &[
+            "task.function.formula",
+            "unknown function 'foo'",
+            "known: sin",
+        ],
+    );
+    // Undefined for x < 0: the message says where.
+    bad_scenario(
+        &f("    x: [-1, 2]\n    output_span: 60\n").replace("x^2", "sqrt(x)"),
+        &[
+            "task.function.formula",
+            "undefined on [-1, 2]",
+            "first at x = -1",
+        ],
+    );
+    bad_scenario(
+        &f("    x: [1, 2]\n    output_span: 60\n").replace("x^2", "1/(x-1.5)"),
+        &["task.function.formula", "undefined", "x = 1.5"],
+    );
+    // Equal ends: a constant, and sin over a full period (equal only up to rounding).
+    bad_scenario(
+        &f("    x: [1, 2]\n    output_span: 60\n").replace("x^2", "2"),
+        &["task.function", "output span cannot be mapped"],
+    );
+    bad_scenario(
+        &f("    x: [0, 6.283185307179586]\n    output_span: 60\n").replace("x^2", "sin(x)"),
+        &["task.function", "equal up to rounding"],
+    );
+    bad_scenario(
         "task:\n  function:\n    formula: \" \"\n    x: [1, 2]\n    input_span: 90\n    output_span: 60\n",
         &["s.yaml:3:14", "task.function.formula", "is empty"],
     );

@@ -345,3 +345,20 @@ proptest! {
         exercise_designs(&text.replace("inf", ".inf").replace("NaN", ".nan"));
     }
 }
+
+// Regression (found by the fuzzer): poses 1e12 apart are valid input, but the search box
+// around them (a few times the target set's size) let synthesis propose pivots beyond the
+// 1e12 a design file accepts, so `synth` wrote designs that `check` then refused. Such
+// candidates are now rejected, and every written design reads back.
+#[test]
+fn designs_written_for_huge_but_valid_scenarios_read_back() {
+    for text in [
+        "task:\n  motion:\n    poses: [[0, 0, 0], [1e12, 5, 20], [20, 5, 45]]\n",
+        "task:\n  path:\n    points: [[-1e12, 0], [0, 3e11], [1e12, 0]]\n",
+    ] {
+        for seed in 0..4 {
+            let t = text.replace("task:", &format!("search:\n  seed: {seed}\ntask:"));
+            exercise_scenario(&t);
+        }
+    }
+}

@@ -104,3 +104,36 @@ fn ten_thousand_targets_prescribed_timing() {
     let rms = (out.designs[0].design.error / N as f64).sqrt();
     assert!(rms < 1e-8 * 40.0, "rms {rms}");
 }
+
+/// Motion generation with many poses follows the same route: searched on a subset, then
+/// checked and measured, position and frame angle, at every pose.
+#[test]
+fn two_thousand_poses_motion() {
+    let l = planted();
+    let gamma = 0.4;
+    let poses: Vec<(Point2<f64>, f64)> = (0..2000)
+        .map(|i| {
+            let phi = (10.0 + 300.0 * i as f64 / 1999.0).to_radians();
+            let t2 = l.ground_angle() + phi;
+            let p = closed_form(&l, t2, l.assembly()).unwrap();
+            (l.coupler_point_at(t2, p.theta3), p.theta3 + gamma)
+        })
+        .collect();
+    let spec = crankwright::scenario::MotionSpec { poses };
+    let task = PathTask::motion(&spec, &Limits::default());
+    let options = EngineOptions {
+        seed: 4,
+        starts: 100,
+        keep: 2,
+        time_limit: Duration::from_secs(600),
+        ..EngineOptions::default()
+    };
+    let out = synthesize(&task, &options, &AtomicBool::new(false), &Silent);
+    let best = &out.designs.first().expect("a design").design;
+    assert_eq!(best.crank_angles.len(), 2000);
+    assert_eq!(best.reached.len(), 2000);
+    let rms = best.measures["rms_error"].as_f64().unwrap();
+    let max_angle = best.measures["max_angle_error"].as_f64().unwrap();
+    assert!(rms < 1e-8 * 40.0, "rms {rms}");
+    assert!(max_angle < 1e-6, "max angle error {max_angle} deg");
+}

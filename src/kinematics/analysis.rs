@@ -97,17 +97,30 @@ pub struct Analysis {
 /// Transmission angle extremes, exactly: `mu` depends on the crank angle only through
 /// `|A - O4|`, which is smallest at `phi = 0`, largest at `phi = pi`, and monotonic between,
 /// so the extremes lie at those two angles or at the toggles.
+///
+/// At a toggle `mu` is exactly 0 (folded) or 180 degrees (extended) by definition; it is
+/// taken so rather than from the law of cosines, which is ill-conditioned there: `mu` grows
+/// like the square root of `r3 + r4 - |A - O4|`, so the rounding of `|A - O4|` at the
+/// toggle's crank angle alone (~1e-16 relative) would put `mu` ~1e-8 rad off.
 pub fn transmission_summary(linkage: &FourBar, range: &InputRange) -> Option<TransmissionSummary> {
-    let mut cand: Vec<f64> = Vec::new();
+    // Candidate crank angles from the ground line, with the exact mu at toggles.
+    let mut cand: Vec<(f64, Option<f64>)> = Vec::new();
+    let at_toggle = |t: &Toggle| {
+        let mu = match t.kind {
+            ToggleKind::Extended => PI,
+            ToggleKind::Folded => 0.0,
+        };
+        (t.phi, Some(mu))
+    };
     match range {
         InputRange::None => return None,
-        InputRange::FullTurn => cand.extend([0.0, PI]),
+        InputRange::FullTurn => cand.extend([(0.0, None), (PI, None)]),
         InputRange::Arcs(arcs) => {
             for a in arcs {
-                cand.extend([a.start.phi, a.end.phi]);
+                cand.extend([at_toggle(&a.start), at_toggle(&a.end)]);
                 for c in [0.0, PI, -PI, TAU] {
                     if c > a.start.phi && c < a.end.phi {
-                        cand.push(c);
+                        cand.push((c, None));
                     }
                 }
             }
@@ -116,8 +129,8 @@ pub fn transmission_summary(linkage: &FourBar, range: &InputRange) -> Option<Tra
     let t1 = linkage.ground_angle();
     let mut min = (f64::INFINITY, 0.0);
     let mut max = (f64::NEG_INFINITY, 0.0);
-    for phi in cand {
-        let Some(mu) = linkage.transmission_angle(phi + t1) else {
+    for (phi, exact) in cand {
+        let Some(mu) = exact.or_else(|| linkage.transmission_angle(phi + t1)) else {
             continue;
         };
         if mu < min.0 {
@@ -175,6 +188,23 @@ pub fn analyse(linkage: &FourBar, options: &AnalysisOptions) -> Analysis {
     for b in &sw.branches {
         let mut poses = b.poses.clone();
         if let Some((p0, p1)) = b.toggle_poses {
+            // The output's rate is unbounded at a toggle, so its sign there is taken from
+            // a pose traced to within the toggle margin; without it an output extreme
+            // between a toggle and the nearest grid angle would go unseen.
+            let anchor = match (poses.first(), poses.last()) {
+                (Some(&a), Some(&z)) => Some((a, z)),
+                _ => tracer
+                    .pose_at(0.5 * (p0.theta2 + p1.theta2), linkage.assembly())
+                    .map(|m| (m, m)),
+            };
+            if let Some((a, z)) = anchor {
+                if let TraceEnd::Toggle { last, .. } = tracer.trace(&a, a.theta2 - TAU) {
+                    poses.insert(0, last);
+                }
+                if let TraceEnd::Toggle { last, .. } = tracer.trace(&z, z.theta2 + TAU) {
+                    poses.push(last);
+                }
+            }
             poses.insert(0, p0);
             poses.push(p1);
         }
@@ -196,15 +226,24 @@ pub fn analyse(linkage: &FourBar, options: &AnalysisOptions) -> Analysis {
             .iter()
             .map(|p| velocity_ratios(linkage, p).map_or(f64::NAN, |v| v.1))
             .collect();
-        for i in 0..poses.len().saturating_sub(1) {
-            let (k0, k1) = (ks[i], ks[i + 1]);
-            if k0.is_finite() && k1.is_finite() && k0 != 0.0 && (k0 > 0.0) != (k1 > 0.0) {
-                let p = refine_extreme(&mut tracer, &poses[i], &poses[i + 1]);
-                extremes.push(OutputExtreme {
-                    pose: p,
-                    is_max: k0 > 0.0,
-                });
+        // Sign changes of d theta4 / d theta2 between poses, skipping poses where it is
+        // exactly zero (an extreme right on a grid angle) or unbounded (a toggle).
+        let mut prev: Option<usize> = None;
+        for (i, &k1) in ks.iter().enumerate() {
+            if !k1.is_finite() || k1 == 0.0 {
+                continue;
             }
+            if let Some(j) = prev {
+                let k0 = ks[j];
+                if (k0 > 0.0) != (k1 > 0.0) {
+                    let p = refine_extreme(&mut tracer, &poses[j], &poses[i]);
+                    extremes.push(OutputExtreme {
+                        pose: p,
+                        is_max: k0 > 0.0,
+                    });
+                }
+            }
+            prev = Some(i);
         }
         let mut lo = f64::INFINITY;
         let mut hi = f64::NEG_INFINITY;

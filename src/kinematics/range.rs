@@ -7,6 +7,7 @@
 
 use std::f64::consts::{PI, TAU};
 
+use super::position::Pose;
 use crate::linkage::FourBar;
 
 /// Which limit ends an arc of input motion.
@@ -25,6 +26,34 @@ pub struct Toggle {
     pub phi: f64,
     /// Which in-line position it is.
     pub kind: ToggleKind,
+}
+
+impl Toggle {
+    /// The pose at this toggle, built from its geometry: `B` lies on the line through `A`
+    /// and `O4` (between them when extended; on the far side of `O4` when folded with the
+    /// coupler longer, of `A` when the output is longer), so `theta3` and `theta4` are the
+    /// direction of `A -> O4` or its opposite.
+    ///
+    /// This is better conditioned than the closed-form circle intersection there: the
+    /// circles touch, and the intersection's half-chord `sqrt(r3^2 - along^2)` turns the
+    /// rounding of `|A - O4|` (~1e-16) into an angle error of ~1e-8.
+    pub fn pose(&self, linkage: &FourBar) -> Pose {
+        let theta2 = self.phi + linkage.ground_angle();
+        let u = linkage.output_pivot() - linkage.joint_a(theta2);
+        let toward_o4 = u.y.atan2(u.x);
+        let (theta3, theta4) = match self.kind {
+            ToggleKind::Extended => (toward_o4, toward_o4 + PI),
+            ToggleKind::Folded if linkage.coupler() >= linkage.output_link() => {
+                (toward_o4, toward_o4)
+            }
+            ToggleKind::Folded => (toward_o4 + PI, toward_o4 + PI),
+        };
+        Pose {
+            theta2,
+            theta3,
+            theta4,
+        }
+    }
 }
 
 /// One arc of crank angles (from the ground line) on which the linkage assembles:

@@ -33,6 +33,9 @@ pub struct Rates {
     pub acceleration: Vector2<f64>,
 }
 
+/// `|sin(theta3 - theta4)|` below which the Jacobian counts as singular for rate solves.
+const SINGULAR_SINE: f64 = 1e-14;
+
 /// Solves `J x = rhs` for the loop-closure Jacobian at `(t3, t4)`; `None` at a toggle.
 #[inline]
 fn solve_j(
@@ -44,7 +47,7 @@ fn solve_j(
 ) -> Option<(f64, f64)> {
     // J = [r3 i e3, -r4 i e4] as columns, i e = perp(e). det = r3 r4 sin(t3 - t4).
     let s34 = e3.y * e4.x - e3.x * e4.y;
-    if s34.abs() < 1e-14 {
+    if s34.abs() < SINGULAR_SINE {
         return None;
     }
     // Column form: r3 x3 perp(e3) - r4 x4 perp(e4) = rhs. Dot with e4 and e3:
@@ -68,6 +71,35 @@ pub fn velocity_ratios(linkage: &FourBar, pose: &Pose) -> Option<(f64, f64)> {
         e4,
         -linkage.input_link() * perp(e2),
     )
+}
+
+/// First and second derivatives of `theta3` and `theta4` with respect to `theta2`,
+/// `[k3, k4, k3', k4']`, from the unit vectors `e2`, `e3`, `e4` of a solved pose: the
+/// velocity and acceleration solves for `w2 = 1`, `a2 = 0`. `None` at a toggle.
+#[inline]
+pub(crate) fn ratio_derivatives(
+    linkage: &FourBar,
+    e2: Vector2<f64>,
+    e3: Vector2<f64>,
+    e4: Vector2<f64>,
+) -> Option<[f64; 4]> {
+    let (r2, r3, r4) = (
+        linkage.input_link(),
+        linkage.coupler(),
+        linkage.output_link(),
+    );
+    // The two solves of `solve_j` with one shared reciprocal of the determinant.
+    let s34 = e3.y * e4.x - e3.x * e4.y;
+    if s34.abs() < SINGULAR_SINE {
+        return None;
+    }
+    let inv = 1.0 / (r3 * r4 * s34);
+    let (inv3, inv4) = (-r4 * inv, r3 * inv);
+    let v = -r2 * perp(e2);
+    let (k3, k4) = (v.dot(&e4) * inv3, -v.dot(&e3) * inv4);
+    let w = r2 * e2 + r3 * k3 * k3 * e3 - r4 * k4 * k4 * e4;
+    let (a3, a4) = (w.dot(&e4) * inv3, -w.dot(&e3) * inv4);
+    Some([k3, k4, a3, a4])
 }
 
 /// Velocities and accelerations at `pose` for crank speed `omega2` (rad/s) and crank

@@ -1,14 +1,19 @@
 //! Motion by continuation: Newton-Raphson position solves stepped along the crank angle,
-//! each started from the previous solution moved along its tangent (the velocity solution
-//! of the same Jacobian). Continuation is what keeps the linkage on one branch; the step is
+//! each started from the previous solution moved along its second-order Taylor expansion
+//! (the velocity and acceleration solutions of the same Jacobian). Continuation is what keeps the linkage on one branch; the step is
 //! cut near toggles, where the coupler's angle changes like the square root of the distance.
 
 use std::f64::consts::TAU;
 
-use super::position::{closed_form, solve_position, NewtonOptions, Pose, PositionStatus};
+use nalgebra::Vector2;
+
+use super::position::{
+    closed_form, newton, solve_position, turn, LoopConstants, NewtonOptions, NewtonStart, Pose,
+    PositionStatus, SERIES_ANGLE, TURN_ROUNDING,
+};
 use super::range::{wrap_tau, Arc, InputRange, Toggle};
-use super::rates::velocity_ratios;
-use crate::linkage::{Assembly, FourBar};
+use super::rates::ratio_derivatives;
+use crate::linkage::{unit, Assembly, FourBar};
 
 /// Tuning of a continuation sweep.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -57,13 +62,125 @@ pub enum TraceEnd {
     },
 }
 
+/// A converged pose with the unit vectors `e(theta2)`, `e(theta3)`, `e(theta4)` and the
+/// first and second derivatives of `theta3`, `theta4` with respect to `theta2`: what the
+/// predictor works from.
+///
+/// Along a uniform grid the unit vectors are carried from station to station by turning
+/// them (see [`GridTurn`]) rather than evaluated afresh; `e2_error` and `units_error` bound
+/// how far they have drifted from `e(theta2)` and from `e(theta3)`, `e(theta4)` (radians),
+/// and `age` counts the stations since they were last evaluated.
+#[derive(Debug, Clone, Copy)]
+struct Node {
+    pose: Pose,
+    e2: Vector2<f64>,
+    e3: Vector2<f64>,
+    e4: Vector2<f64>,
+    /// `[d theta3, d theta4, d2 theta3, d2 theta4]`, derivatives with respect to `theta2`.
+    d: [f64; 4],
+    e2_error: f64,
+    units_error: f64,
+    age: u32,
+}
+
+impl Node {
+    /// The node of a solved pose whose unit vectors were just evaluated; `None` at a toggle.
+    #[inline]
+    fn new(
+        linkage: &FourBar,
+        pose: Pose,
+        e2: Vector2<f64>,
+        e3: Vector2<f64>,
+        e4: Vector2<f64>,
+    ) -> Option<Self> {
+        let d = ratio_derivatives(linkage, e2, e3, e4)?;
+        Some(Self {
+            pose,
+            e2,
+            e3,
+            e4,
+            d,
+            e2_error: 0.0,
+            units_error: 0.0,
+            age: 0,
+        })
+    }
+
+    /// Assembly sign `sign(sin(theta4 - theta3))`.
+    #[inline]
+    fn sign(&self) -> Assembly {
+        sign_of(self.e3, self.e4)
+    }
+}
+
+/// `sign(sin(theta4 - theta3))` from the unit vectors.
+#[inline]
+fn sign_of(e3: Vector2<f64>, e4: Vector2<f64>) -> Assembly {
+    Assembly::from_sign(e4.y * e3.x - e4.x * e3.y)
+}
+
+/// Stations of a uniform grid crossed with carried (turned) unit vectors before they are
+/// evaluated afresh; this bounds their drift to a few hundred rounding units.
+const GRID_RESYNC: u32 = 8;
+
+/// A uniform grid of crank angles with step `h`: `e(theta2 + h) = R(h) e(theta2)`, so along
+/// the grid `e(theta2)` is turned by a rotation computed once instead of evaluating `sin`
+/// and `cos` at every station (and `e(theta3)`, `e(theta4)` are turned by the predicted
+/// increments, see [`turn`]).
+#[derive(Debug, Clone, Copy)]
+struct GridTurn {
+    /// The grid step `h` (radians).
+    step: f64,
+    /// `(sin h, cos h)`.
+    sin_cos: (f64, f64),
+}
+
+impl GridTurn {
+    fn new(step: f64) -> Self {
+        Self {
+            step,
+            sin_cos: step.sin_cos(),
+        }
+    }
+
+    /// Whether a crank step `dt` ending at `theta2` is this grid's step, up to the rounding
+    /// of the stations themselves (a few ulps of `theta2`).
+    #[inline]
+    fn fits(&self, dt: f64, theta2: f64) -> bool {
+        (dt - self.step).abs() <= 8.0 * f64::EPSILON * (1.0 + theta2.abs())
+    }
+
+    /// `u` turned by the grid step.
+    #[inline]
+    fn turn(&self, u: Vector2<f64>) -> Vector2<f64> {
+        let (s, c) = self.sin_cos;
+        Vector2::new(c * u.x - s * u.y, s * u.x + c * u.y)
+    }
+}
+
+/// Largest change (radians) of `theta3` or `theta4` that a continuation step predicts, and
+/// largest difference between a predicted and a converged angle that it accepts: a longer
+/// prediction is cut by shortening the step, a larger correction means Newton-Raphson
+/// left the branch. Together they keep every step well within half a turn, so that the
+/// traced angles never skip whole turns.
+const MAX_JUMP: f64 = 0.5;
+
 /// Traces the motion of one linkage along its crank angle by continuation.
+///
+/// Each step predicts the next position from a second-order Taylor expansion of `theta3`
+/// and `theta4` in `theta2` (velocity and acceleration solves with the position's own
+/// Jacobian) and corrects it by Newton-Raphson, which then usually needs a single
+/// iteration; see [`solve_position`] for the early stop on quadratic convergence.
 #[derive(Debug, Clone)]
 pub struct Tracer<'a> {
     linkage: &'a FourBar,
     range: InputRange,
     options: SweepOptions,
     solves: usize,
+    /// `O2 - O4`, so that `A - O4 = o24 + r2 e(theta2)`.
+    o24: Vector2<f64>,
+    /// Lengths and tolerances of the Newton-Raphson solves.
+    k: LoopConstants,
 }
 
 impl<'a> Tracer<'a> {
@@ -74,6 +191,8 @@ impl<'a> Tracer<'a> {
             range: InputRange::of(linkage),
             options,
             solves: 0,
+            o24: linkage.input_pivot() - linkage.output_pivot(),
+            k: LoopConstants::new(linkage, &options.newton),
         }
     }
 
@@ -101,6 +220,17 @@ impl<'a> Tracer<'a> {
         Some(if s.converged() { s.pose } else { guess })
     }
 
+    /// The predictor's node at a solved pose; `None` at a toggle.
+    fn node(&self, pose: &Pose) -> Option<Node> {
+        Node::new(
+            self.linkage,
+            *pose,
+            unit(pose.theta2),
+            unit(pose.theta3),
+            unit(pose.theta4),
+        )
+    }
+
     /// Signed crank-angle distance from `theta2` to the toggle that ends the motion in
     /// direction `dir` (+1 counter-clockwise), with that toggle; `None` for a full turn.
     fn limit(&self, theta2: f64, dir: f64) -> Option<(f64, Toggle)> {
@@ -114,29 +244,124 @@ impl<'a> Tracer<'a> {
         }
     }
 
+    /// One continuation step from `from` to crank angle `theta2`: second-order predictor,
+    /// Newton-Raphson, and a check that the solution kept the assembly `sign` and stayed
+    /// near the prediction. Returns the new node and the Newton iterations, or the status
+    /// of the failed step (`Converged` when it converged onto another branch).
+    ///
+    /// With `grid` (a uniform grid whose step this is), the unit vectors are carried over
+    /// from `from` by turning them, for up to [`GRID_RESYNC`] stations; the bound on their
+    /// drift enters the Newton-Raphson solve as a known error of the loop closure.
+    #[inline]
+    fn step(
+        &mut self,
+        from: &Node,
+        theta2: f64,
+        grid: Option<&GridTurn>,
+        sign: Assembly,
+    ) -> Result<(Node, usize), PositionStatus> {
+        const EPS: f64 = f64::EPSILON;
+        let dt = theta2 - from.pose.theta2;
+        let [k3, k4, a3, a4] = from.d;
+        let d3 = dt * (k3 + 0.5 * a3 * dt);
+        let d4 = dt * (k4 + 0.5 * a4 * dt);
+        if d3.abs().max(d4.abs()) > MAX_JUMP {
+            // The step is too long for the local rates (near a toggle, longer than the
+            // Taylor series' radius of convergence): a prediction this far out could land
+            // within MAX_JUMP of a solution whole turns away.
+            return Err(PositionStatus::Diverged);
+        }
+        let (g3, g4) = (from.pose.theta3 + d3, from.pose.theta4 + d4);
+        let r2 = self.linkage.input_link();
+        let carry = grid.filter(|g| {
+            from.age < GRID_RESYNC
+                && d3.abs() <= SERIES_ANGLE
+                && d4.abs() <= SERIES_ANGLE
+                && g.fits(dt, theta2)
+        });
+        let (e2, e2_error, units_error, age, start) = match carry {
+            Some(g) => {
+                // Each turn rounds; the angles' own sums round by half an ulp each; the
+                // station spacing differs from the grid step by the stations' rounding.
+                let e2_error = from.e2_error + (dt - g.step).abs() + (TURN_ROUNDING + 1.0) * EPS;
+                let units_error =
+                    from.units_error + (TURN_ROUNDING + 0.5 * (1.0 + g3.abs().max(g4.abs()))) * EPS;
+                let start = NewtonStart {
+                    theta3: g3,
+                    theta4: g4,
+                    e3: turn(from.e3, d3),
+                    e4: turn(from.e4, d4),
+                    error: r2 * e2_error + (self.k.r3() + self.k.r4()) * units_error,
+                };
+                (g.turn(from.e2), e2_error, units_error, from.age + 1, start)
+            }
+            None => (unit(theta2), 0.0, 0.0, 0, NewtonStart::at(g3, g4)),
+        };
+        let ao4 = self.o24 + r2 * e2;
+        self.solves += 1;
+        if !self.k.reaches(ao4) {
+            return Err(PositionStatus::NotAssembled);
+        }
+        let run = newton(&self.k, ao4, start, &self.options.newton);
+        if run.status != PositionStatus::Converged {
+            return Err(run.status);
+        }
+        let jump = (run.theta3 - g3).abs().max((run.theta4 - g4).abs());
+        if sign_of(run.e3, run.e4) != sign || jump >= MAX_JUMP {
+            return Err(run.status);
+        }
+        let pose = Pose {
+            theta2,
+            theta3: run.theta3,
+            theta4: run.theta4,
+        };
+        let mut node =
+            Node::new(self.linkage, pose, e2, run.e3, run.e4).ok_or(PositionStatus::Singular)?;
+        // The final small turn of Newton-Raphson and the angles' last sums.
+        let last = (TURN_ROUNDING + 0.5 * (1.0 + run.theta3.abs().max(run.theta4.abs()))) * EPS;
+        node.e2_error = e2_error;
+        node.units_error = if run.fresh { last } else { units_error + last };
+        node.age = age;
+        Ok((node, run.iterations))
+    }
+
     /// Traces from the converged pose `start` to crank angle `theta2_end` (radians; larger
     /// than `start.theta2` means counter-clockwise, and more than a turn is allowed), staying
     /// on the branch of `start`.
     pub fn trace(&mut self, start: &Pose, theta2_end: f64) -> TraceEnd {
-        let total = theta2_end - start.theta2;
-        if total == 0.0 {
+        if theta2_end - start.theta2 == 0.0 {
             return TraceEnd::Reached(*start);
         }
+        let Some(node) = self.node(start) else {
+            return TraceEnd::Lost {
+                last: *start,
+                status: PositionStatus::Singular,
+            };
+        };
+        self.trace_node(node, theta2_end).1
+    }
+
+    /// [`Tracer::trace`] from a node, also returning the node reached.
+    fn trace_node(&mut self, start: Node, theta2_end: f64) -> (Node, TraceEnd) {
+        let total = theta2_end - start.pose.theta2;
+        if total == 0.0 {
+            return (start, TraceEnd::Reached(start.pose));
+        }
         let dir = total.signum();
-        let sign = start.assembly();
+        let sign = start.sign();
         let opts = self.options;
         let mut goal = theta2_end;
         let mut toggle = None;
-        if let Some((dist, t)) = self.limit(start.theta2, dir) {
+        if let Some((dist, t)) = self.limit(start.pose.theta2, dir) {
             if dist < total.abs() {
-                goal = start.theta2 + dir * (dist - opts.toggle_margin).max(0.0);
+                goal = start.pose.theta2 + dir * (dist - opts.toggle_margin).max(0.0);
                 toggle = Some(t);
             }
         }
-        let mut cur = *start;
+        let mut cur = start;
         let mut h = opts.max_step;
         loop {
-            let remaining = (goal - cur.theta2) * dir;
+            let remaining = (goal - cur.pose.theta2) * dir;
             if remaining <= 0.0 {
                 break;
             }
@@ -148,49 +373,94 @@ impl<'a> Tracer<'a> {
                     .min(0.5 * (remaining + opts.toggle_margin))
                     .max(remaining.min(opts.min_step));
             }
-            let Some((k3, k4)) = velocity_ratios(self.linkage, &cur) else {
-                return TraceEnd::Lost {
-                    last: cur,
-                    status: PositionStatus::Singular,
-                };
-            };
             let t2 = if step >= remaining {
                 goal
             } else {
-                cur.theta2 + dir * step
+                cur.pose.theta2 + dir * step
             };
-            let dt = t2 - cur.theta2;
-            let guess = Pose {
-                theta2: t2,
-                theta3: cur.theta3 + k3 * dt,
-                theta4: cur.theta4 + k4 * dt,
-            };
-            self.solves += 1;
-            let s = solve_position(self.linkage, t2, &guess, &opts.newton);
-            let jump = (s.pose.theta3 - guess.theta3)
-                .abs()
-                .max((s.pose.theta4 - guess.theta4).abs());
-            if s.converged() && s.pose.assembly() == sign && jump < 0.5 {
-                cur = s.pose;
-                if s.iterations <= 3 {
-                    h = (h * 2.0).min(opts.max_step);
-                } else if s.iterations > 6 {
-                    h *= 0.5;
+            match self.step(&cur, t2, None, sign) {
+                Ok((next, iterations)) => {
+                    cur = next;
+                    if iterations <= 3 {
+                        h = (h * 2.0).min(opts.max_step);
+                    } else if iterations > 6 {
+                        h *= 0.5;
+                    }
                 }
-            } else {
-                h = step * 0.25;
-                if h < opts.min_step {
-                    return TraceEnd::Lost {
-                        last: cur,
-                        status: s.status,
-                    };
+                Err(status) => {
+                    h = step * 0.25;
+                    if h < opts.min_step {
+                        return (
+                            cur,
+                            TraceEnd::Lost {
+                                last: cur.pose,
+                                status,
+                            },
+                        );
+                    }
                 }
             }
         }
-        match toggle {
-            Some(toggle) => TraceEnd::Toggle { last: cur, toggle },
-            None => TraceEnd::Reached(cur),
+        let end = match toggle {
+            Some(toggle) => TraceEnd::Toggle {
+                last: cur.pose,
+                toggle,
+            },
+            None => TraceEnd::Reached(cur.pose),
+        };
+        (cur, end)
+    }
+
+    /// Traces from the converged pose `start` through the crank angles `stations` in turn,
+    /// pushing the pose reached at each onto `poses`: the fast path for a grid of closely
+    /// spaced angles. A station at most `max_step` from the previous one and well short of
+    /// the next toggle is reached in a single continuation step (one Newton-Raphson solve,
+    /// the predictor's derivatives carried over from the step before); any other station,
+    /// or one where that step fails, is reached by [`Tracer::trace`]'s adaptive stepping.
+    /// Stops at the first station it cannot reach and returns how that trace ended, else
+    /// `Reached` with the pose at the last station.
+    pub fn trace_grid(
+        &mut self,
+        start: &Pose,
+        stations: &[f64],
+        poses: &mut Vec<Pose>,
+    ) -> TraceEnd {
+        let Some(mut cur) = self.node(start) else {
+            return TraceEnd::Lost {
+                last: *start,
+                status: PositionStatus::Singular,
+            };
+        };
+        let sign = cur.sign();
+        let mut grid = None;
+        for &t2 in stations {
+            let dt = t2 - cur.pose.theta2;
+            let fast = dt != 0.0
+                && dt.abs() <= self.options.max_step
+                && self
+                    .limit(cur.pose.theta2, dt.signum())
+                    .map_or(true, |(dist, _)| dt.abs() < 0.5 * dist);
+            if fast {
+                let g = match grid {
+                    Some(g) if GridTurn::fits(&g, dt, t2) => g,
+                    _ => GridTurn::new(dt),
+                };
+                grid = Some(g);
+                if let Ok((next, _)) = self.step(&cur, t2, Some(&g), sign) {
+                    cur = next;
+                    poses.push(cur.pose);
+                    continue;
+                }
+            }
+            match self.trace_node(cur, t2) {
+                (next, TraceEnd::Reached(p)) => {
+                    cur = next;
+                    poses.push(p);
+                }
+                (_, end) => return end,
+            }
         }
+        TraceEnd::Reached(cur.pose)
     }
 }
 
@@ -203,7 +473,9 @@ pub struct Branch {
     pub poses: Vec<Pose>,
     /// Toggles ending the branch (clockwise end, counter-clockwise end); `None` for a full turn.
     pub toggles: Option<(Toggle, Toggle)>,
-    /// Exact poses at the two toggles (closed form, where the Jacobian is singular).
+    /// Exact poses at the two toggles (see [`Toggle::pose`]; the Jacobian is singular
+    /// there), their `theta3` and `theta4` shifted by whole turns to continue the branch's
+    /// poses.
     pub toggle_poses: Option<(Pose, Pose)>,
 }
 
@@ -231,6 +503,44 @@ impl Sweep {
     }
 }
 
+/// `pose` with `theta3` and `theta4` shifted by whole turns to lie within half a turn of
+/// those of `near`.
+fn unwrap_near(pose: Pose, near: &Pose) -> Pose {
+    let shift = |a: f64, b: f64| a + TAU * ((b - a) / TAU).round();
+    Pose {
+        theta2: pose.theta2,
+        theta3: shift(pose.theta3, near.theta3),
+        theta4: shift(pose.theta4, near.theta4),
+    }
+}
+
+/// Crank angles `k * step` (whole `k`) in `[lo, hi]`.
+fn stations(step: f64, lo: f64, hi: f64) -> Vec<f64> {
+    let k0 = (lo / step).ceil() as i64;
+    let k1 = (hi / step).floor() as i64;
+    (k0..=k1).map(|k| k as f64 * step).collect()
+}
+
+/// Poses at the crank angles `st` for `assembly`, by continuation from a closed-form start;
+/// where a station cannot be reached (which does not happen inside one arc of motion) the
+/// trace restarts there from the closed form.
+fn trace_stations(tracer: &mut Tracer, st: &[f64], assembly: Assembly) -> Vec<Pose> {
+    let mut poses = Vec::with_capacity(st.len());
+    let mut i = 0;
+    while i < st.len() {
+        let Some(p) = tracer.pose_at(st[i], assembly) else {
+            i += 1;
+            continue;
+        };
+        poses.push(p);
+        let before = poses.len();
+        // Whatever the end, the poses pushed are the stations reached.
+        let _ = tracer.trace_grid(&p, &st[i + 1..], &mut poses);
+        i += 1 + (poses.len() - before);
+    }
+    poses
+}
+
 /// Sweeps the linkage over crank angles that are whole multiples of `step` (radians),
 /// on the linkage's own assembly, by Newton-Raphson continuation. Each branch starts from a
 /// closed-form guess at its first grid angle and is then traced grid angle to grid angle.
@@ -240,47 +550,15 @@ pub fn sweep(linkage: &FourBar, step: f64, options: &SweepOptions) -> Sweep {
     let t1 = linkage.ground_angle();
     let mut branches = Vec::new();
     let range = tracer.range().clone();
-    // Grid stations: the crank angles k * step in [lo, hi].
-    let stations = |lo: f64, hi: f64| -> Vec<f64> {
-        let k0 = (lo / step).ceil() as i64;
-        let k1 = (hi / step).floor() as i64;
-        (k0..=k1).map(|k| k as f64 * step).collect()
-    };
-    let run = |tracer: &mut Tracer, st: Vec<f64>| -> Vec<Pose> {
-        let mut poses = Vec::with_capacity(st.len());
-        let Some(&first) = st.first() else {
-            return poses;
-        };
-        let Some(mut cur) = tracer.pose_at(first, asm) else {
-            return poses;
-        };
-        poses.push(cur);
-        for &t2 in &st[1..] {
-            match tracer.trace(&cur, t2) {
-                TraceEnd::Reached(p) => {
-                    cur = p;
-                    poses.push(p);
-                }
-                _ => {
-                    // Cannot happen inside an arc; restart from the closed form if it does.
-                    if let Some(p) = tracer.pose_at(t2, asm) {
-                        cur = p;
-                        poses.push(p);
-                    }
-                }
-            }
-        }
-        poses
-    };
     match &range {
         InputRange::None => {}
         InputRange::FullTurn => {
-            let n = (TAU / step).round() as usize;
-            let st: Vec<f64> = (0..n)
-                .map(|k| k as f64 * step)
+            // Every multiple of the step in [0, 2 pi), the last one short of a full turn.
+            let st: Vec<f64> = stations(step, 0.0, TAU)
+                .into_iter()
                 .filter(|t| *t < TAU - 1e-12)
                 .collect();
-            let poses = run(&mut tracer, st);
+            let poses = trace_stations(&mut tracer, &st, asm);
             branches.push(Branch {
                 assembly: asm,
                 poses,
@@ -292,16 +570,16 @@ pub fn sweep(linkage: &FourBar, step: f64, options: &SweepOptions) -> Sweep {
             for arc in arcs {
                 let lo = t1 + arc.start.phi;
                 let hi = t1 + arc.end.phi;
-                let poses = run(&mut tracer, stations(lo, hi));
-                let tp = (tracer.pose_at(lo, asm), tracer.pose_at(hi, asm));
+                let poses = trace_stations(&mut tracer, &stations(step, lo, hi), asm);
+                let a = arc.start.pose(linkage);
+                let a = unwrap_near(a, poses.first().unwrap_or(&a));
+                let b = arc.end.pose(linkage);
+                let b = unwrap_near(b, poses.last().unwrap_or(&a));
                 branches.push(Branch {
                     assembly: asm,
                     poses,
                     toggles: Some((arc.start, arc.end)),
-                    toggle_poses: match tp {
-                        (Some(a), Some(b)) => Some((a, b)),
-                        _ => None,
-                    },
+                    toggle_poses: Some((a, b)),
                 });
             }
         }

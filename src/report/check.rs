@@ -28,9 +28,10 @@ pub struct BranchRecord {
     pub to: Option<ToggleRecord>,
     /// Crank rotation available on the branch, degrees (360 for a full turn).
     pub crank_travel: f64,
-    /// Smallest output angle `theta4` reached, degrees.
+    /// Smallest output angle `theta4` reached, degrees in `[0, 360)`.
     pub output_min: f64,
-    /// Largest output angle `theta4` reached, degrees.
+    /// Largest output angle `theta4` reached, degrees: `output_min` plus the angle the
+    /// output turns through, so it may exceed 360.
     pub output_max: f64,
     /// Output swing, degrees (360 when the output turns fully).
     pub output_swing: f64,
@@ -121,8 +122,9 @@ impl CheckReport {
                 from: b.crank_range.map(|r| toggle(&r.0, t1)),
                 to: b.crank_range.map(|r| toggle(&r.1, t1)),
                 crank_travel: b.crank_range.map_or(360.0, |r| deg(r.1.phi - r.0.phi)),
-                output_min: deg(b.theta4_range.0),
-                output_max: deg(b.theta4_range.1),
+                output_min: deg_wrapped(b.theta4_range.0),
+                output_max: deg_wrapped(b.theta4_range.0)
+                    + deg(b.theta4_range.1 - b.theta4_range.0),
                 output_swing: if b.output_turns_fully {
                     360.0
                 } else {

@@ -1,7 +1,51 @@
-//! Reports for people and programs: the `check` summary and the `sweep` table.
+//! Reports for people and programs: the `check` summary, the `sweep` table, and the
+//! figures and exports of a design (SVG text, no I/O).
+//!
+//! Figures share one visual language ([`style`]): to-scale linkage drawings
+//! ([`draw::linkage_figure`], [`draw::motion_figure`]), plots against the crank angle or the
+//! task's input ([`plots`]), an SMIL animation ([`animate::animation_svg`]) and the CAD/CSV
+//! exports ([`export`]). [`curves`] turns a sweep into the data they draw.
+//!
+//! ```
+//! use crankwright::report::{curve_branches, linkage_figure, poses_at_cranks};
+//! use crankwright::{sweep, Assembly, CouplerPoint, FourBar, SweepOptions};
+//! use nalgebra::Point2;
+//!
+//! let l = FourBar::new(
+//!     Point2::new(0.0, 0.0),
+//!     Point2::new(80.0, 0.0),
+//!     25.0,
+//!     70.0,
+//!     55.0,
+//!     CouplerPoint { p: 30.0, q: 15.0 },
+//!     Assembly::Open,
+//! )?;
+//! let curve = curve_branches(&l, &sweep(&l, 2f64.to_radians(), &SweepOptions::default()));
+//! let poses = poses_at_cranks(&l, &[0.0, 120.0]).expect("a crank-rocker assembles");
+//! let svg = linkage_figure(&l, &poses, &curve, &[], &[], "mm", (640, 480));
+//! assert!(svg.starts_with("<svg"));
+//! assert_eq!(svg.matches(r#"class="linkage-pose""#).count(), 2);
+//! # Ok::<(), crankwright::LinkageError>(())
+//! ```
 
+pub mod animate;
 pub mod check;
+pub mod curves;
+pub mod draw;
+pub mod export;
+mod frame;
+mod legend;
+pub mod plots;
+pub mod style;
+#[cfg(test)]
+mod svg_test;
 pub mod table;
+
+pub use animate::animation_svg;
+pub use curves::{angle_branches, curve_branches, motion_poses, poses_at_cranks};
+pub use draw::{footprint, linkage_figure, motion_figure, FramePose};
+pub use export::{cad_svg, csv_curve};
+pub use plots::{angle_plot, error_plot, function_plot, AngleSample};
 
 /// Radians to degrees, rounded to 1e-9 degree so that files do not carry float noise.
 pub fn deg(rad: f64) -> f64 {
@@ -45,11 +89,19 @@ pub fn summary_text(s: &crate::synthesis::output::Summary) -> String {
     }
     for d in &s.designs {
         let m = |k: &str| d.measures.get(k).and_then(serde_json::Value::as_f64);
-        let err = match (m("sum_squared_error"), m("rms_error"), m("max_error")) {
+        let mut err = match (m("sum_squared_error"), m("rms_error"), m("max_error")) {
             (Some(a), Some(b), Some(c)) => format!("sum sq {a:.4e}, rms {b:.4e}, max {c:.4e}"),
-            (_, Some(b), Some(c)) => format!("rms {b:.4e}, max {c:.4e}"),
+            (None, Some(b), Some(c)) => {
+                format!("output angle error rms {b:.4} deg, max {c:.4} deg")
+            }
             _ => String::new(),
         };
+        if let Some(a) = m("max_angle_error") {
+            err.push_str(&format!(", max angle error {a:.4} deg"));
+        }
+        if let Some(p) = m("precision_error") {
+            err.push_str(&format!(", at precision points {p:.2e} deg"));
+        }
         let _ = writeln!(
             t,
             "#{:<2} {err}; {}, min transmission {:.1} deg, link ratio {:.2}",

@@ -61,7 +61,7 @@ pub struct EngineOptions {
     pub full_iterations: u64,
     /// Fraction of starts refined to convergence. Default 0.05 (at least `keep * 4`).
     pub promote_fraction: f64,
-    /// Restarts around the best designs, as a fraction of `starts`. Default 0.1.
+    /// Restarts around the best designs, as a fraction of `starts`. Default 0.05.
     pub hop_fraction: f64,
     /// Most candidates refined to convergence, whatever `promote_fraction` gives. Default 1000.
     pub max_promoted: usize,
@@ -81,7 +81,7 @@ impl Default for EngineOptions {
             quick_iterations: 40,
             full_iterations: 400,
             promote_fraction: 0.05,
-            hop_fraction: 0.1,
+            hop_fraction: 0.05,
             max_promoted: 1000,
             candidate_pool: 4096,
         }

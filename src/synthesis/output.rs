@@ -138,6 +138,19 @@ impl Summary {
     }
 }
 
+/// Crank angles (radians, unwrapped in running order) as degrees, shifted by whole turns so
+/// that the first lies in `[0, 360)`; the later ones keep their running order.
+pub fn crank_degrees(angles: &[f64]) -> Vec<f64> {
+    let Some(first) = angles.first() else {
+        return Vec::new();
+    };
+    let shift = (first.to_degrees() / 360.0).floor() * 360.0;
+    angles
+        .iter()
+        .map(|a| round9(a.to_degrees() - shift))
+        .collect()
+}
+
 /// The design file of a ranked linkage, named after the scenario and rank.
 pub fn design_of(scenario: &Scenario, rank: usize, linkage: &crate::FourBar) -> Design {
     Design {

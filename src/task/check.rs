@@ -35,6 +35,10 @@ pub struct MotionCheck {
 /// # Errors
 /// The first limit violated.
 pub fn check_limits(linkage: &FourBar, limits: &Limits) -> Result<(), Rejection> {
+    // A design its own file could not hold (see `design::linkage_scale_problem`).
+    if crate::design::linkage_scale_problem(linkage).is_some() {
+        return Err(Rejection::Degenerate);
+    }
     if let Some((lo, hi)) = limits.link_length {
         for l in linkage.lengths() {
             if l < lo * (1.0 - LIMIT_SLACK) || l > hi * (1.0 + LIMIT_SLACK) {

@@ -304,6 +304,29 @@ impl Layout {
         }
     }
 
+    /// The variables of an internal-units linkage, when the fixed pivots are free (the
+    /// parameterisation is then `O2x, O2y, r1, theta1, r2, r3, r4[, p, q]`); `None` otherwise.
+    pub fn encode(&self, l: &FourBar) -> Option<Vec<f64>> {
+        if self.ground != Ground::Free {
+            return None;
+        }
+        let o2 = l.input_pivot();
+        let cp = l.coupler_point();
+        let mut x = vec![
+            o2.x,
+            o2.y,
+            l.ground(),
+            l.ground_angle(),
+            l.input_link(),
+            l.coupler(),
+            l.output_link(),
+        ];
+        if self.with_coupler_point {
+            x.extend([cp.p, cp.q]);
+        }
+        Some(x)
+    }
+
     /// A random point in the layout's box. Lengths are drawn uniformly or, every other time,
     /// log-uniformly (so that a wide length range still yields links comparable to the target
     /// set); the coupler point likewise within the box or within reach of the coupler. When a

@@ -6,6 +6,7 @@
 //! [`crate::synthesis`] only talks to this trait, so a new task kind plugs in by implementing it.
 
 pub mod check;
+pub mod function;
 pub mod layout;
 pub mod path;
 
@@ -16,6 +17,7 @@ use serde::Serialize;
 use crate::linkage::{Assembly, FourBar, GrashofClass};
 
 pub use check::{check_motion, MotionCheck};
+pub use function::FunctionTask;
 pub use layout::Layout;
 pub use path::PathTask;
 
@@ -91,7 +93,8 @@ pub struct Mode {
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord, Serialize)]
 #[serde(rename_all = "kebab-case")]
 pub enum Rejection {
-    /// Refinement produced an invalid linkage (a length collapsed to zero or NaN).
+    /// Refinement produced an invalid linkage (a length collapsed to zero or NaN, or sizes a
+    /// design file cannot hold).
     Degenerate,
     /// Cannot be assembled at one of the targets.
     NotAssembled,
@@ -259,12 +262,7 @@ pub fn build(scenario: &crate::scenario::Scenario) -> Result<Box<dyn Task>, Task
     use crate::scenario::TaskSpec;
     match &scenario.task {
         TaskSpec::Path(p) => Ok(Box::new(PathTask::new(p, &scenario.limits))),
-        TaskSpec::Function(_) | TaskSpec::Motion(_) => Err(TaskError::Invalid {
-            field: "task".into(),
-            message: format!(
-                "{} generation is not available in this build",
-                scenario.task.kind()
-            ),
-        }),
+        TaskSpec::Motion(m) => Ok(Box::new(PathTask::motion(m, &scenario.limits))),
+        TaskSpec::Function(f) => Ok(Box::new(FunctionTask::new(f, &scenario.limits)?)),
     }
 }
