@@ -15,8 +15,9 @@ use indicatif::{ProgressBar, ProgressStyle};
 use crankwright::fsutil::write_atomic;
 use crankwright::report::check::CheckReport;
 use crankwright::report::table::{rows_to_csv, sweep_rows};
+use crankwright::report::{read_results, write_report, REPORT_FILE};
 use crankwright::scenario::{load_scenario, MAX_STARTS};
-use crankwright::synthesis::output::{write_results, Summary};
+use crankwright::synthesis::output::{design_of, write_results, Summary};
 use crankwright::synthesis::{synthesize, EngineOptions, Observer, Progress};
 use crankwright::{load_designs, Design, InputError};
 
@@ -85,6 +86,12 @@ enum Command {
         /// Write into a non-empty output folder.
         #[arg(long)]
         force: bool,
+    },
+    /// Redraw report.html and the design-N.svg / design-N-curve.csv exports of a folder
+    /// written by `synth`, from its summary.json and designs.yaml, without searching again.
+    Report {
+        /// Results folder of a `synth` run.
+        dir: PathBuf,
     },
 }
 
@@ -234,6 +241,13 @@ fn synth(
     let summary = Summary::new(&scenario, &outcome, s.seed, s.starts);
     write_results(&dir, &scenario, &outcome, &summary)
         .with_context(|| format!("writing results into {}", dir.display()))?;
+    let designs: Vec<Design> = outcome
+        .designs
+        .iter()
+        .map(|r| design_of(&scenario, r.rank, &r.design.linkage))
+        .collect();
+    write_report(&dir, &summary, &designs)
+        .with_context(|| format!("writing the report into {}", dir.display()))?;
     print!("{}", crankwright::report::summary_text(&summary));
     println!("written: {}", dir.display());
     Ok(if outcome.designs.is_empty() {
@@ -241,6 +255,14 @@ fn synth(
     } else {
         ExitCode::SUCCESS
     })
+}
+
+fn report(dir: &Path) -> anyhow::Result<ExitCode> {
+    let (summary, designs) = read_results(dir).map_err(|e| Failure::Usage(e.to_string()))?;
+    write_report(dir, &summary, &designs)
+        .with_context(|| format!("writing the report into {}", dir.display()))?;
+    println!("written: {}", dir.join(REPORT_FILE).display());
+    Ok(ExitCode::SUCCESS)
 }
 
 fn run(cli: Cli) -> anyhow::Result<ExitCode> {
@@ -254,6 +276,7 @@ fn run(cli: Cli) -> anyhow::Result<ExitCode> {
             threads,
             force,
         } => synth(&scenario, out, seed, starts, time_limit, threads, force),
+        Command::Report { dir } => report(&dir),
         Command::Check {
             design,
             index,

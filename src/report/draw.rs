@@ -261,7 +261,7 @@ fn symbol_turn(dirs: &[nalgebra::Vector2<f64>]) -> u8 {
 /// A fixed-pivot symbol at pixel `(x, y)`: a bearing block under the pivot standing on a
 /// base line with diagonal hatching below it, turned by `turn` quarter turns
 /// counter-clockwise on the page.
-fn ground_symbol(x: f64, y: f64, turn: u8) -> String {
+pub(crate) fn ground_symbol(x: f64, y: f64, turn: u8) -> String {
     let g = style::GROUND.hex();
     let (half, drop, hatch) = (13.0, 15.0, 6.0);
     let base = y + drop;
@@ -319,7 +319,7 @@ pub(crate) fn pivots_layer(map: &Map, linkage: &FourBar) -> String {
     s
 }
 
-fn pivot_circle(x: f64, y: f64) -> String {
+pub(crate) fn pivot_circle(x: f64, y: f64) -> String {
     format!(
         r#"<circle class="pivot" cx="{x}" cy="{y}" r="{}" fill="{}" stroke="{}" stroke-width="1.6"/><circle cx="{x}" cy="{y}" r="1.4" fill="{}"/>"#,
         num(PIVOT_R),
@@ -587,7 +587,13 @@ pub fn linkage_figure(
 }
 
 /// A frame triad: x axis arrow of [`TRIAD_LEN`] pixels and a shorter y axis arrow.
-fn triad(class: &str, origin: (f64, f64), phi: f64, colour: Rgb, dashed: bool) -> String {
+pub(crate) fn triad(
+    class: &str,
+    origin: (f64, f64),
+    phi: f64,
+    colour: Rgb,
+    dashed: bool,
+) -> String {
     // Equal scaling: a world direction (cos, sin) is the pixel direction (cos, -sin).
     let (s, c) = phi.sin_cos();
     let xe = (origin.0 + TRIAD_LEN * c, origin.1 - TRIAD_LEN * s);
@@ -606,6 +612,20 @@ fn triad(class: &str, origin: (f64, f64), phi: f64, colour: Rgb, dashed: bool) -
         num(origin.1),
         colour.hex()
     )
+}
+
+/// The legend of the motion-generation drawings.
+fn motion_legend() -> Legend {
+    Legend::new(&[
+        (Swatch::Line(style::CRANK, LINK_WIDTH, None), "crank"),
+        (Swatch::Plate, "coupler"),
+        (Swatch::Line(style::OUTPUT, LINK_WIDTH, None), "output link"),
+        (Swatch::Line(style::COUPLER, 1.6, None), "coupler frame"),
+        (
+            Swatch::Line(style::TARGET, 1.6, Some("4 2.5")),
+            "target frame",
+        ),
+    ])
 }
 
 /// Motion generation: the linkage to scale at each of `poses` (first solid, others faded)
@@ -636,27 +656,77 @@ pub fn motion_figure(
             .chain(origins.iter().copied()),
     )
     .unwrap_or((lo, hi));
-    let legend = Legend::new(&[
-        (Swatch::Line(style::CRANK, LINK_WIDTH, None), "crank"),
-        (Swatch::Plate, "coupler"),
-        (Swatch::Line(style::OUTPUT, LINK_WIDTH, None), "output link"),
-        (Swatch::Line(style::COUPLER, 1.6, None), "coupler frame"),
-        (
-            Swatch::Line(style::TARGET, 1.6, Some("4 2.5")),
-            "target frame",
-        ),
-    ]);
+    let (svg, map) = scene_frame(bbox, units, size, &motion_legend());
+    let layers = motion_layers(&map, linkage, poses, curve, targets, frame_angle);
+    finish(svg, &layers)
+}
+
+/// Motion generation seen close up: the same drawing as [`motion_figure`], to scale, but
+/// framing only the target poses and the coupler point at each of `poses`, so that the
+/// frames of poses close together can be told apart. Whatever lies outside (usually the
+/// fixed pivots and much of the links) is clipped at the plot's edge by a nested `<svg>`
+/// viewport (no `id`s needed).
+pub fn motion_closeup(
+    linkage: &FourBar,
+    poses: &[Pose],
+    curve: &[Vec<Point2<f64>>],
+    targets: &[FramePose],
+    frame_angle: f64,
+    units: &str,
+    size: (u32, u32),
+) -> String {
+    let points = targets.iter().map(|t| Point2::new(t.x, t.y)).chain(
+        poses
+            .iter()
+            .map(|p| linkage.coupler_point_at(p.theta2, p.theta3)),
+    );
+    let (lo, hi) = bounds(points).unwrap_or_else(|| footprint(linkage, poses));
+    let legend = motion_legend();
+    // Room for the frame triads, which are longer than the drawing's usual padding: widen
+    // the box by their length at the scale it gets (once more after widening, as the scale
+    // shrinks a little).
+    let mut bbox = (lo, hi);
+    for _ in 0..2 {
+        let (_, map) = scene_frame(bbox, units, size, &legend);
+        let upp = (map.x.1 - map.x.0) / (map.rect.2 - map.rect.0).max(1.0);
+        let grow = upp * (TRIAD_LEN + 10.0 - SCENE_PAD).max(0.0);
+        let v = nalgebra::Vector2::new(grow, grow);
+        bbox = (lo - v, hi + v);
+    }
     let (svg, map) = scene_frame(bbox, units, size, &legend);
+    let (x0, y0, x1, y1) = map.rect;
+    let (w, h) = (x1 - x0, y1 - y0);
+    let layers = format!(
+        r#"<svg class="closeup" x="{x}" y="{y}" width="{w}" height="{h}" viewBox="{x} {y} {w} {h}" overflow="hidden">{}</svg>"#,
+        motion_layers(&map, linkage, poses, curve, targets, frame_angle),
+        x = num(x0),
+        y = num(y0),
+        w = num(w),
+        h = num(h),
+    );
+    finish(svg, &layers)
+}
+
+/// The layers of a motion-generation drawing on `map`.
+fn motion_layers(
+    map: &Map,
+    linkage: &FourBar,
+    poses: &[Pose],
+    curve: &[Vec<Point2<f64>>],
+    targets: &[FramePose],
+    frame_angle: f64,
+) -> String {
+    let origins: Vec<Point2<f64>> = targets.iter().map(|t| Point2::new(t.x, t.y)).collect();
     let mut layers = String::new();
-    layers.push_str(&curve_layer(&map, curve));
-    layers.push_str(&ground_layer(&map, linkage, poses));
-    layers.push_str(&poses_layer(&map, linkage, poses));
-    layers.push_str(&pivots_layer(&map, linkage));
+    layers.push_str(&curve_layer(map, curve));
+    layers.push_str(&ground_layer(map, linkage, poses));
+    layers.push_str(&poses_layer(map, linkage, poses));
+    layers.push_str(&pivots_layer(map, linkage));
     let reached: Vec<Point2<f64>> = poses
         .iter()
         .map(|p| linkage.coupler_point_at(p.theta2, p.theta3))
         .collect();
-    layers.push_str(&errors_layer(&map, &origins, &reached));
+    layers.push_str(&errors_layer(map, &origins, &reached));
     for (i, t) in targets.iter().enumerate() {
         let o = Point2::new(t.x, t.y);
         if !(finite(&o) && t.phi.is_finite()) {
@@ -691,7 +761,7 @@ pub fn motion_figure(
             triad("triad", map.p(j.c), phi, style::COUPLER, false)
         ));
     }
-    finish(svg, &layers)
+    layers
 }
 
 #[cfg(test)]
@@ -854,6 +924,55 @@ mod tests {
         assert_eq!(by_class(&doc, "g", "target").len(), 1);
         assert!(svg.contains("x (&lt;in &amp; &quot;ft&quot;&gt;)"));
         assert!(!svg.contains("NaN"));
+    }
+
+    // The close-up frames the target poses and reached coupler points, not the pivots; the
+    // drawing keeps one scale for both axes and clips what lies outside the plot.
+    #[test]
+    fn motion_closeup_frames_the_targets() {
+        let l = crank_rocker();
+        let poses = closed_poses(&l, &[20.0, 40.0, 60.0]);
+        let targets: Vec<FramePose> = poses
+            .iter()
+            .map(|p| {
+                let c = l.coupler_point_at(p.theta2, p.theta3);
+                FramePose {
+                    x: c.x + 0.05,
+                    y: c.y - 0.05,
+                    phi: p.theta3 + 0.2,
+                }
+            })
+            .collect();
+        let svg = motion_closeup(&l, &poses, &[], &targets, 0.2, "mm", (640, 480));
+        let doc = parse(&svg);
+        let clip = by_class(&doc, "svg", "closeup");
+        assert_eq!(clip.len(), 1);
+        assert_eq!(clip[0].attribute("overflow"), Some("hidden"));
+        let (cx, cy) = (attr(&clip[0], "x"), attr(&clip[0], "y"));
+        let (cw, ch) = (attr(&clip[0], "width"), attr(&clip[0], "height"));
+        assert_eq!(by_class(&doc, "g", "target-frame").len(), 3);
+        // Frame origins (the dot at the triad's root) lie well inside the clip.
+        for f in by_class(&doc, "g", "coupler-frame") {
+            let dot = f
+                .descendants()
+                .rfind(|n| n.has_tag_name("circle"))
+                .expect("origin dot");
+            let (x, y) = (attr(&dot, "cx"), attr(&dot, "cy"));
+            assert!(x > cx + 30.0 && x < cx + cw - 30.0, "{x}");
+            assert!(y > cy + 30.0 && y < cy + ch - 30.0, "{y}");
+        }
+        // Zoomed in: the crank (length 2) is drawn longer than in the whole-mechanism view.
+        let whole = motion_figure(&l, &poses, &[], &targets, 0.2, "mm", (640, 480));
+        let crank_px = |svg: &str| {
+            let doc = parse(svg);
+            let g = by_class(&doc, "g", "linkage-pose")
+                .into_iter()
+                .find(|g| g.attribute("data-pose") == Some("1"))
+                .expect("pose 1");
+            let (p, q) = ends(&child(&g, "line", "crank"));
+            dist(p, q)
+        };
+        assert!(crank_px(&svg) > 1.5 * crank_px(&whole));
     }
 
     // Motion generation: the coupler frame rides on the coupler point at theta3 +

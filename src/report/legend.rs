@@ -81,42 +81,8 @@ impl Legend {
         let mut s = String::from(r#"<g class="legend">"#);
         for ((sw, label), (x, row)) in self.entries.iter().zip(self.layout(width)) {
             let y = 0.5 * STRIP_PAD + ROW_H * (row as f64 + 0.5);
-            let (x0, x1) = (x, x + SWATCH_W);
-            let xm = 0.5 * (x0 + x1);
-            match *sw {
-                Swatch::Line(c, w, dash) => {
-                    let extra = dash
-                        .map(|d| format!(r#" stroke-dasharray="{d}""#))
-                        .unwrap_or_default();
-                    s.push_str(&line("swatch", (x0, y), (x1, y), c, w, &extra));
-                }
-                Swatch::Plate => s.push_str(&format!(
-                    r#"<polygon points="{},{} {},{} {},{}" fill="{c}" fill-opacity="0.16" stroke="{c}" stroke-width="1.4"/>"#,
-                    num(x0),
-                    num(y + 5.0),
-                    num(x1),
-                    num(y + 5.0),
-                    num(xm + 3.0),
-                    num(y - 6.0),
-                    c = style::COUPLER.hex()
-                )),
-                Swatch::Reticle => s.push_str(&reticle(xm, y, "", style::TARGET)),
-                Swatch::Fill(c) => s.push_str(&format!(
-                    r#"<rect x="{}" y="{}" width="{}" height="10" fill="{}" stroke="{}" stroke-width="0.8"/>"#,
-                    num(x0),
-                    num(y - 5.0),
-                    num(SWATCH_W),
-                    c.hex(),
-                    style::GRID.hex()
-                )),
-                Swatch::Ring(c) => s.push_str(&format!(
-                    r#"<circle cx="{}" cy="{}" r="4" fill="{}" stroke="{}" stroke-width="1.5"/>"#,
-                    num(xm),
-                    num(y),
-                    style::PAPER.hex(),
-                    c.hex()
-                )),
-            }
+            let x1 = x + SWATCH_W;
+            s.push_str(&swatch(*sw, x, y));
             s.push_str(&text(
                 x1 + SWATCH_GAP,
                 y + 0.36 * FONT_LABEL,
@@ -129,6 +95,60 @@ impl Legend {
         s.push_str("</g>");
         s
     }
+}
+
+/// A swatch whose left edge is at `x` and middle at height `y`, pixels.
+fn swatch(sw: Swatch, x: f64, y: f64) -> String {
+    let (x0, x1) = (x, x + SWATCH_W);
+    let xm = 0.5 * (x0 + x1);
+    match sw {
+        Swatch::Line(c, w, dash) => {
+            let extra = dash
+                .map(|d| format!(r#" stroke-dasharray="{d}""#))
+                .unwrap_or_default();
+            line("swatch", (x0, y), (x1, y), c, w, &extra)
+        }
+        Swatch::Plate => format!(
+            r#"<polygon points="{},{} {},{} {},{}" fill="{c}" fill-opacity="0.16" stroke="{c}" stroke-width="1.4"/>"#,
+            num(x0),
+            num(y + 5.0),
+            num(x1),
+            num(y + 5.0),
+            num(xm + 3.0),
+            num(y - 6.0),
+            c = style::COUPLER.hex()
+        ),
+        Swatch::Reticle => reticle(xm, y, "", style::TARGET),
+        Swatch::Fill(c) => format!(
+            r#"<rect x="{}" y="{}" width="{}" height="10" fill="{}" stroke="{}" stroke-width="0.8"/>"#,
+            num(x0),
+            num(y - 5.0),
+            num(SWATCH_W),
+            c.hex(),
+            style::GRID.hex()
+        ),
+        Swatch::Ring(c) => format!(
+            r#"<circle cx="{}" cy="{}" r="4" fill="{}" stroke="{}" stroke-width="1.5"/>"#,
+            num(xm),
+            num(y),
+            style::PAPER.hex(),
+            c.hex()
+        ),
+    }
+}
+
+/// A swatch on its own, as a small inline `<svg>` for keys outside a figure (e.g. a legend
+/// table in a page); it looks exactly like the swatch of a figure legend.
+pub(crate) fn swatch_icon(sw: Swatch) -> String {
+    let (w, h) = (SWATCH_W + 6.0, ROW_H);
+    format!(
+        r#"<svg class="swatch" width="{}" height="{}" viewBox="-3 0 {} {}" xmlns="http://www.w3.org/2000/svg">{}</svg>"#,
+        num(w),
+        num(h),
+        num(w),
+        num(h),
+        swatch(sw, 0.0, 0.5 * h)
+    )
 }
 
 #[cfg(test)]

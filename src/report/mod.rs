@@ -1,10 +1,12 @@
-//! Reports for people and programs: the `check` summary, the `sweep` table, and the
-//! figures and exports of a design (SVG text, no I/O).
+//! Reports for people and programs: the `check` summary, the `sweep` table, the figures and
+//! exports of a design (SVG and CSV text), and the design report of a synthesis run.
 //!
 //! Figures share one visual language ([`style`]): to-scale linkage drawings
 //! ([`draw::linkage_figure`], [`draw::motion_figure`]), plots against the crank angle or the
 //! task's input ([`plots`]), an SMIL animation ([`animate::animation_svg`]) and the CAD/CSV
-//! exports ([`export`]). [`curves`] turns a sweep into the data they draw.
+//! exports ([`export`]). [`curves`] turns a sweep into the data they draw. The design report
+//! of a synthesis run puts them together in one HTML page ([`html::render_report`]) and writes
+//! it with the exports into a results folder ([`files::write_report`]).
 //!
 //! ```
 //! use crankwright::report::{curve_branches, linkage_figure, poses_at_cranks};
@@ -33,9 +35,12 @@ pub mod check;
 pub mod curves;
 pub mod draw;
 pub mod export;
+pub mod files;
 mod frame;
+pub mod html;
 mod legend;
 pub mod plots;
+mod study;
 pub mod style;
 #[cfg(test)]
 mod svg_test;
@@ -43,9 +48,12 @@ pub mod table;
 
 pub use animate::animation_svg;
 pub use curves::{angle_branches, curve_branches, motion_poses, poses_at_cranks};
-pub use draw::{footprint, linkage_figure, motion_figure, FramePose};
+pub use draw::{footprint, linkage_figure, motion_closeup, motion_figure, FramePose};
 pub use export::{cad_svg, csv_curve};
+pub use files::{read_results, write_report, ReportError, REPORT_FILE};
+pub use html::render_report;
 pub use plots::{angle_plot, error_plot, function_plot, AngleSample};
+pub use study::{FUNCTION_SAMPLES, MOTION_STEP_DEG};
 
 /// Radians to degrees, rounded to 1e-9 degree so that files do not carry float noise.
 pub fn deg(rad: f64) -> f64 {

@@ -134,7 +134,9 @@ fn into_range(x: f64, lo: f64, hi: f64) -> f64 {
 
 /// Link angles against crank angle: `theta3` and `theta4` in the upper panel, the
 /// transmission angle `mu` in the lower panel over the shaded 40..140 degree band (common
-/// practice, no source), the worst transmission quality `min(mu, 180 - mu)` labelled.
+/// practice, no source), the worst transmission quality `min(mu, 180 - mu)` labelled: over
+/// everything plotted when a branch turns fully, and between the first and last target
+/// when every branch rocks (its ends are toggles, where the quality is nil by definition).
 ///
 /// `branches`: one sample list per branch, each in crank order; a series is broken between
 /// branches, across crank gaps over 20 degrees and where a plotted angle jumps by more than
@@ -259,27 +261,62 @@ pub fn angle_plot(
         }
     }
 
-    // Worst transmission quality over the motion.
-    let worst = all()
-        .filter(|a| a.mu.is_finite() && a.crank.is_finite())
-        .min_by(|a, b| a.mu.min(180.0 - a.mu).total_cmp(&b.mu.min(180.0 - b.mu)));
-    if let Some(w) = worst {
-        let (px, py) = (mb.px(w.crank), mb.py(w.mu));
-        let q = w.mu.min(180.0 - w.mu);
+    // Worst transmission quality over the working motion: a crank's whole turn; for a
+    // rocking input, whose motion ends in toggles (where mu is 0 or 180 by definition), the
+    // stretch from the first target to the last, the part of the stroke that does the work.
+    let quality = |mu: f64| mu.min(180.0 - mu);
+    let rocking = branches
+        .iter()
+        .all(|b| extent(b.iter().map(|a| a.crank)).is_some_and(|(lo, hi)| hi - lo < 360.0 - 1e-6));
+    let window = extent(targets.iter().copied().filter(|t| *t >= xl && *t <= xh))
+        .filter(|(lo, hi)| rocking && hi > lo);
+    let inside = |c: f64| window.map_or(true, |(lo, hi)| c >= lo - 1e-9 && c <= hi + 1e-9);
+    let mut candidates: Vec<(f64, f64)> = all()
+        .filter(|a| a.mu.is_finite() && a.crank.is_finite() && inside(a.crank))
+        .map(|a| (a.crank, a.mu))
+        .collect();
+    if window.is_some() {
+        candidates.extend(targets.iter().filter_map(|t| {
+            let mu = branches.iter().find_map(|b| interpolate(b, *t, |a| a.mu))?;
+            Some((*t, mu))
+        }));
+    }
+    let worst = candidates
+        .into_iter()
+        .min_by(|a, b| quality(a.1).total_cmp(&quality(b.1)));
+    if let Some((crank, mu)) = worst {
+        let (px, py) = (mb.px(crank), mb.py(mu));
+        let q = quality(mu);
         let right = px < 0.5 * (mb.rect.0 + mb.rect.2);
-        let below = w.mu > 90.0;
+        // Outside the curve: above a maximum of mu, below a minimum, where there is room.
+        let room_above = py - 7.0 - FONT_TICK > mb.rect.1;
+        let room_below = py + 15.0 < mb.rect.3;
+        let above = if mu > 90.0 { room_above } else { !room_below };
+        let label = match window {
+            Some(_) => format!("worst {q:.1}° between targets"),
+            None => format!("worst {q:.1}°"),
+        };
         s.push_str(&format!(
             r#"<g class="worst-mu"><circle cx="{}" cy="{}" r="3" fill="{}"/>{}</g>"#,
             num(px),
             num(py),
             style::INK.hex(),
+            // A halo of paper colour keeps the label legible over grid and band lines.
             text(
                 px + if right { 7.0 } else { -7.0 },
-                py + if below { 15.0 } else { -7.0 },
+                py + if above { -7.0 } else { 15.0 },
                 FONT_TICK,
                 if right { "start" } else { "end" },
                 style::INK,
-                &format!("worst {q:.1}°")
+                &label
+            )
+            .replacen(
+                "<text ",
+                &format!(
+                    r#"<text stroke="{}" stroke-width="3" stroke-linejoin="round" paint-order="stroke" "#,
+                    style::PAPER.hex()
+                ),
+                1
             )
         ));
     }
@@ -480,6 +517,42 @@ mod tests {
             attr(band, "y") + attr(band, "height"),
             y_of(MU_BAND_LOW),
             epsilon = 0.05
+        );
+    }
+
+    fn worst_label(svg: &str) -> String {
+        let doc = parse(svg);
+        let g = by_class(&doc, "g", "worst-mu");
+        assert_eq!(g.len(), 1);
+        g[0].descendants()
+            .find(|n| n.has_tag_name("text"))
+            .and_then(|n| n.text())
+            .expect("label")
+            .trim()
+            .to_owned()
+    }
+
+    // mu = 20 + c / 2 on a rocking branch over crank 0..120: everywhere the worst quality
+    // is at crank 0 (20 deg), but between targets at 30 and 90 it is at 30 (35 deg). On a
+    // full turn the whole motion counts.
+    #[test]
+    fn worst_transmission_between_targets_when_rocking() {
+        let rocking = vec![line_branch(0.0, 120.0)];
+        assert_eq!(
+            worst_label(&angle_plot(&rocking, &[90.0, 30.0], (600, 400))),
+            "worst 35.0° between targets"
+        );
+        assert_eq!(
+            worst_label(&angle_plot(&rocking, &[], (600, 400))),
+            "worst 20.0°"
+        );
+        let mut turn = line_branch(0.0, 360.0);
+        for a in &mut turn {
+            a.mu = 90.0 - 60.0 * (a.crank.to_radians()).cos();
+        }
+        assert_eq!(
+            worst_label(&angle_plot(&[turn], &[90.0, 200.0], (600, 400))),
+            "worst 30.0°"
         );
     }
 
