@@ -67,7 +67,23 @@ fn check_results(out: &Path, reason: &str) -> Summary {
         .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
         .collect();
     names.sort();
-    assert_eq!(names, ["designs.yaml", "summary.json"]);
+    for must in ["designs.yaml", "report.html", "summary.json"] {
+        assert!(names.iter().any(|n| n == must), "{must} missing: {names:?}");
+    }
+    for n in &names {
+        let export = n.starts_with("design-") && (n.ends_with(".svg") || n.ends_with("-curve.csv"));
+        let known = ["designs.yaml", "report.html", "summary.json"].contains(&n.as_str());
+        assert!(
+            export || known,
+            "unexpected file {n} (a temporary file left behind?)"
+        );
+    }
+    // The report says the search was cut short.
+    let html = std::fs::read_to_string(out.join("report.html")).unwrap();
+    assert!(
+        html.to_lowercase().contains("stopped early"),
+        "report not marked"
+    );
     summary
 }
 

@@ -21,7 +21,7 @@ use super::draw::{
 };
 use super::files::{cad_file, check_pairing, curve_file, ReportError};
 use super::legend::{swatch_icon, Swatch};
-use super::plots::{angle_plot, error_plot, function_plot, MU_BAND_HIGH, MU_BAND_LOW};
+use super::plots::{angle_plot_over, error_plot, function_plot, MU_BAND_HIGH, MU_BAND_LOW};
 use super::study::{measure, study_all, FunctionView, Study, MOTION_STEP_DEG};
 use super::style::{self, esc, LINK_WIDTH};
 use crate::design::Design;
@@ -927,7 +927,20 @@ fn design_section(h: &mut String, s: &Summary, d: &DesignSummary, design: &Desig
     h.push_str("</div></div>\n");
 
     // Plots, the task's own figure and the animation.
-    let angles = angle_plot(&st.angles, &d.crank_angles, PLOT_SIZE);
+    // Function generation works over the whole x range: from input_start over input_span.
+    let working = match (
+        &s.scenario.task.function,
+        d.measures.get("input_start").and_then(|v| v.as_f64()),
+    ) {
+        (Some(f), Some(start)) => {
+            // Unwrap the start near the first reported crank angle.
+            let first = d.crank_angles.first().copied().unwrap_or(start);
+            let a = start + ((first - start) / 360.0).round() * 360.0;
+            Some((a, a + f.input_span))
+        }
+        _ => None,
+    };
+    let angles = angle_plot_over(&st.angles, &d.crank_angles, working, PLOT_SIZE);
     let angles_fig = format!(
         "<figure class=\"angles\">{angles}<figcaption><b>Link angles and transmission angle</b> over the working motion; \
          dotted: the crank angle at each {what}. Shaded: μ from {MU_BAND_LOW}° to {MU_BAND_HIGH}° (common practice).</figcaption></figure>"
@@ -1176,7 +1189,7 @@ fn function_figures(h: &mut String, v: &FunctionView) {
         if v.desired.is_some() {
             ""
         } else {
-            " The desired function is a formula, which this report does not evaluate: the generated output rotation is shown alone."
+            " The desired function could not be evaluated from the scenario: the generated output rotation is shown alone."
         }
     );
     if let Some(e) = &v.error {

@@ -52,7 +52,7 @@ pub use draw::{footprint, linkage_figure, motion_closeup, motion_figure, FramePo
 pub use export::{cad_svg, csv_curve};
 pub use files::{read_results, write_report, ReportError, REPORT_FILE};
 pub use html::render_report;
-pub use plots::{angle_plot, error_plot, function_plot, AngleSample};
+pub use plots::{angle_plot, angle_plot_over, error_plot, function_plot, AngleSample};
 pub use study::{FUNCTION_SAMPLES, MOTION_STEP_DEG};
 
 /// Radians to degrees, rounded to 1e-9 degree so that files do not carry float noise.

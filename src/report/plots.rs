@@ -148,6 +148,18 @@ pub fn angle_plot(
     target_cranks: &[f64],
     size: (u32, u32),
 ) -> String {
+    angle_plot_over(branches, target_cranks, None, size)
+}
+
+/// [`angle_plot`] with the working motion of a rocking input given explicitly as a crank
+/// range `(from, to)` in degrees (function generation works over the whole x range, which
+/// reaches beyond its precision points); `None` takes the first to the last target.
+pub fn angle_plot_over(
+    branches: &[Vec<AngleSample>],
+    target_cranks: &[f64],
+    working: Option<(f64, f64)>,
+    size: (u32, u32),
+) -> String {
     let all = || branches.iter().flatten();
     let (x_lo, x_hi) = extent(all().map(|s| s.crank)).unwrap_or((0.0, 360.0));
     let size = frame::clamp_size(size);
@@ -268,13 +280,22 @@ pub fn angle_plot(
     let rocking = branches
         .iter()
         .all(|b| extent(b.iter().map(|a| a.crank)).is_some_and(|(lo, hi)| hi - lo < 360.0 - 1e-6));
-    let window = extent(targets.iter().copied().filter(|t| *t >= xl && *t <= xh))
+    let window = working
+        .map(|(a, b)| (a.min(b), a.max(b)))
+        .or_else(|| extent(targets.iter().copied().filter(|t| *t >= xl && *t <= xh)))
         .filter(|(lo, hi)| rocking && hi > lo);
     let inside = |c: f64| window.map_or(true, |(lo, hi)| c >= lo - 1e-9 && c <= hi + 1e-9);
     let mut candidates: Vec<(f64, f64)> = all()
         .filter(|a| a.mu.is_finite() && a.crank.is_finite() && inside(a.crank))
         .map(|a| (a.crank, a.mu))
         .collect();
+    if let Some((lo, hi)) = window {
+        // The ends of the working range themselves (they fall between grid samples).
+        candidates.extend([lo, hi].iter().filter_map(|t| {
+            let mu = branches.iter().find_map(|b| interpolate(b, *t, |a| a.mu))?;
+            Some((*t, mu))
+        }));
+    }
     if window.is_some() {
         candidates.extend(targets.iter().filter_map(|t| {
             let mu = branches.iter().find_map(|b| interpolate(b, *t, |a| a.mu))?;
@@ -293,6 +314,7 @@ pub fn angle_plot(
         let room_below = py + 15.0 < mb.rect.3;
         let above = if mu > 90.0 { room_above } else { !room_below };
         let label = match window {
+            Some(_) if working.is_some() => format!("worst {q:.1}° over the working range"),
             Some(_) => format!("worst {q:.1}° between targets"),
             None => format!("worst {q:.1}°"),
         };

@@ -132,6 +132,10 @@ pub(crate) fn measure(d: &DesignSummary, key: &str) -> Option<f64> {
 /// evaluate it: a table is interpolated linearly (sorted by `x`); a formula is not evaluated
 /// here, so `None`.
 pub(crate) fn desired_function(task: &FunctionFile) -> Option<Box<dyn Fn(f64) -> f64>> {
+    if let Some(text) = &task.formula {
+        let f = crate::exact::formula::Formula::parse(text).ok()?;
+        return Some(Box::new(move |x: f64| f.eval(x).unwrap_or(f64::NAN)));
+    }
     let mut table = task.table.clone()?;
     table.retain(|r| r[0].is_finite() && r[1].is_finite());
     table.sort_by(|a, b| a[0].total_cmp(&b[0]));
@@ -378,7 +382,7 @@ mod tests {
     }
 
     #[test]
-    fn table_is_interpolated_and_formula_is_not_evaluated() {
+    fn table_is_interpolated_and_formula_is_evaluated() {
         let mut task = FunctionFile {
             formula: Some("x^2".into()),
             table: None,
@@ -389,7 +393,9 @@ mod tests {
             output_start: None,
             precision_points: Some(3),
         };
-        assert!(desired_function(&task).is_none());
+        // The formula is evaluated by the project's formula parser: x^2 at 1.5.
+        assert_relative_eq!(desired_function(&task).unwrap()(1.5), 2.25, epsilon = 1e-12);
+        task.formula = None;
         task.table = Some(vec![[2.0, 4.0], [0.0, 0.0], [1.0, 1.0]]);
         let f = desired_function(&task).unwrap();
         assert_relative_eq!(f(0.5), 0.5, epsilon = 1e-12);

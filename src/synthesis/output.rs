@@ -98,11 +98,7 @@ impl Summary {
                 DesignSummary {
                     rank: r.rank,
                     linkage: DesignFile::from(&design_of(scenario, r.rank, &v.linkage)),
-                    crank_angles: v
-                        .crank_angles
-                        .iter()
-                        .map(|a| round9(a.to_degrees()))
-                        .collect(),
+                    crank_angles: crank_degrees(&v.crank_angles),
                     grashof: v.grashof.name().into(),
                     min_transmission: round9(v.min_transmission.to_degrees()),
                     length_ratio: v.linkage.length_ratio(),
