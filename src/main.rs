@@ -21,6 +21,21 @@ use crankwright::synthesis::output::{design_of, write_results, Summary};
 use crankwright::synthesis::{synthesize, EngineOptions, Observer, Progress};
 use crankwright::{load_designs, Design, InputError};
 
+/// `print!` through [`say`], returning its error with `?`.
+macro_rules! out {
+    ($($arg:tt)*) => {
+        say(format_args!($($arg)*))?
+    };
+}
+
+/// `println!` through [`say`].
+macro_rules! outln {
+    ($($arg:tt)*) => {{
+        out!($($arg)*);
+        out!("\n");
+    }};
+}
+
 /// Dimensional synthesis and verification of planar four-bar linkages.
 #[derive(Parser, Debug)]
 #[command(name = "crankwright", version, about, long_about = None)]
@@ -248,8 +263,8 @@ fn synth(
         .collect();
     write_report(&dir, &summary, &designs)
         .with_context(|| format!("writing the report into {}", dir.display()))?;
-    print!("{}", crankwright::report::summary_text(&summary));
-    println!("written: {}", dir.display());
+    out!("{}", crankwright::report::summary_text(&summary));
+    outln!("written: {}", dir.display());
     Ok(if outcome.designs.is_empty() {
         ExitCode::from(1)
     } else {
@@ -261,7 +276,7 @@ fn report(dir: &Path) -> anyhow::Result<ExitCode> {
     let (summary, designs) = read_results(dir).map_err(|e| Failure::Usage(e.to_string()))?;
     write_report(dir, &summary, &designs)
         .with_context(|| format!("writing the report into {}", dir.display()))?;
-    println!("written: {}", dir.join(REPORT_FILE).display());
+    outln!("written: {}", dir.join(REPORT_FILE).display());
     Ok(ExitCode::SUCCESS)
 }
 
@@ -285,9 +300,9 @@ fn run(cli: Cli) -> anyhow::Result<ExitCode> {
             let d = pick(&design, index)?;
             let report = CheckReport::new(&d);
             if json {
-                println!("{}", serde_json::to_string_pretty(&report)?);
+                outln!("{}", serde_json::to_string_pretty(&report)?);
             } else {
-                print!("{}", report.to_text());
+                out!("{}", report.to_text());
             }
             if !report.assembles {
                 eprintln!(
@@ -324,12 +339,12 @@ fn run(cli: Cli) -> anyhow::Result<ExitCode> {
                     .with_context(|| format!("writing {}", path.display()))?;
             }
             if json {
-                println!(
+                outln!(
                     "{}",
                     serde_json::to_string_pretty(&serde_json::json!({ "rows": rows }))?
                 );
             } else {
-                println!(
+                outln!(
                     "{:>9} {:>9} {:>9} {:>8} {:>11} {:>11} {:>10} {:>10} {:>11} {:>11}",
                     "theta2",
                     "theta3",
@@ -343,7 +358,7 @@ fn run(cli: Cli) -> anyhow::Result<ExitCode> {
                     "alpha4"
                 );
                 for r in &rows {
-                    println!(
+                    outln!(
                         "{:>9.3} {:>9.3} {:>9.3} {:>8.3} {:>11.4} {:>11.4} {:>10.4} {:>10.4} {:>11.4} {:>11.4}",
                         r.theta2, r.theta3, r.theta4, r.mu, r.cx, r.cy, r.omega3, r.omega4, r.alpha3, r.alpha4
                     );
@@ -385,6 +400,17 @@ fn install_panic_hook() {
             .unwrap_or_default();
         eprintln!("crankwright: internal error, please report it: {what}{at}");
     }));
+}
+
+/// Writes to standard output. A closed pipe (e.g. `crankwright sweep ... | head`) ends the
+/// program quietly with success, as command-line tools do; other write errors are reported.
+fn say(args: std::fmt::Arguments) -> anyhow::Result<()> {
+    use std::io::Write as _;
+    match std::io::stdout().lock().write_fmt(args) {
+        Ok(()) => Ok(()),
+        Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => std::process::exit(0),
+        Err(e) => Err(anyhow::Error::new(e).context("writing to standard output")),
+    }
 }
 
 fn main() -> ExitCode {
