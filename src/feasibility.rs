@@ -293,22 +293,13 @@ pub fn check(path: &Path, task: &TaskSpec, limits: &Limits) -> Result<(), InputE
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::linkage::{Assembly, CouplerPoint, FourBar, GrashofClass};
+    use crate::linkage::{Assembly, FourBar, GrashofClass};
     use crate::task::check::worst_transmission;
     use approx::assert_relative_eq;
     use proptest::prelude::*;
 
     fn bar(r1: f64, r2: f64, r3: f64, r4: f64) -> Option<FourBar> {
-        FourBar::new(
-            Point2::origin(),
-            Point2::new(r1, 0.0),
-            r2,
-            r3,
-            r4,
-            CouplerPoint::default(),
-            Assembly::Open,
-        )
-        .ok()
+        FourBar::on_x_axis([r1, r2, r3, r4], Assembly::Open).ok()
     }
 
     // The bound is reached: crank 1, ground R, coupler = output = sqrt((R^2 + 1) / 2) has a

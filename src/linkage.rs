@@ -184,6 +184,24 @@ impl FourBar {
         })
     }
 
+    /// A linkage with the ground on the x axis, `O2 = (0, 0)`, `O4 = (r1, 0)`, lengths
+    /// `[r1, r2, r3, r4]` and the coupler point at joint `A`: the textbook placement.
+    ///
+    /// # Errors
+    /// As [`FourBar::new`].
+    pub fn on_x_axis(lengths: [f64; 4], assembly: Assembly) -> Result<Self, LinkageError> {
+        let [r1, r2, r3, r4] = lengths;
+        Self::new(
+            Point2::origin(),
+            Point2::new(r1, 0.0),
+            r2,
+            r3,
+            r4,
+            CouplerPoint::default(),
+            assembly,
+        )
+    }
+
     /// Input (crank) pivot `O2`.
     pub fn input_pivot(&self) -> Point2<f64> {
         self.o2
@@ -381,16 +399,7 @@ mod tests {
     use super::*;
 
     fn bar(r1: f64, r2: f64, r3: f64, r4: f64) -> FourBar {
-        FourBar::new(
-            Point2::new(0.0, 0.0),
-            Point2::new(r1, 0.0),
-            r2,
-            r3,
-            r4,
-            CouplerPoint::default(),
-            Assembly::Open,
-        )
-        .unwrap()
+        FourBar::on_x_axis([r1, r2, r3, r4], Assembly::Open).unwrap()
     }
 
     // Grashof classes: the four inversions of one Grashof chain (lengths 2, 7, 9, 6:

@@ -12,20 +12,10 @@ use crankwright::kinematics::sweep::SweepOptions;
 use crankwright::scenario::{CrankRequirement, FunctionSource, FunctionSpec, Limits};
 use crankwright::synthesis::{synthesize, EngineOptions, Silent};
 use crankwright::task::{check_motion, FunctionTask, Rejection};
-use crankwright::{Assembly, CouplerPoint, FourBar};
-use nalgebra::Point2;
+use crankwright::{Assembly, FourBar};
 
 fn on_x_axis(r: [f64; 4], assembly: Assembly) -> FourBar {
-    FourBar::new(
-        Point2::origin(),
-        Point2::new(r[0], 0.0),
-        r[1],
-        r[2],
-        r[3],
-        CouplerPoint::default(),
-        assembly,
-    )
-    .unwrap()
+    FourBar::on_x_axis(r, assembly).unwrap()
 }
 
 fn options(starts: usize) -> EngineOptions {

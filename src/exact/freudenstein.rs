@@ -31,11 +31,11 @@
 
 use std::f64::consts::PI;
 
-use nalgebra::{DMatrix, DVector, Point2};
+use nalgebra::{DMatrix, DVector};
 
 use crate::kinematics::position::closed_form;
 use crate::kinematics::range::wrap_pi;
-use crate::linkage::{Assembly, CouplerPoint, FourBar, LinkageError};
+use crate::linkage::{Assembly, FourBar, LinkageError};
 
 /// A pair of input and output angles (radians, counter-clockwise from the ground line).
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -238,16 +238,7 @@ impl FreudensteinK {
 /// # Errors
 /// [`LinkageError`] for lengths that are not positive and finite.
 pub fn linkage_on_x_axis(lengths: [f64; 4], assembly: Assembly) -> Result<FourBar, LinkageError> {
-    let [r1, r2, r3, r4] = lengths;
-    FourBar::new(
-        Point2::new(0.0, 0.0),
-        Point2::new(r1, 0.0),
-        r2,
-        r3,
-        r4,
-        CouplerPoint::default(),
-        assembly,
-    )
+    FourBar::on_x_axis(lengths, assembly)
 }
 
 /// Solves Freudenstein's equation for `K1, K2, K3`: exactly through three precision points

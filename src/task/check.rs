@@ -176,20 +176,10 @@ pub fn check_motion(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::linkage::{Assembly, CouplerPoint};
-    use nalgebra::Point2;
+    use crate::linkage::Assembly;
 
     fn bar(r1: f64, r2: f64, r3: f64, r4: f64) -> FourBar {
-        FourBar::new(
-            Point2::origin(),
-            Point2::new(r1, 0.0),
-            r2,
-            r3,
-            r4,
-            CouplerPoint::default(),
-            Assembly::Open,
-        )
-        .unwrap()
+        FourBar::on_x_axis([r1, r2, r3, r4], Assembly::Open).unwrap()
     }
 
     #[test]
