@@ -1,6 +1,9 @@
 //! Very large inputs: a path of 10,000 targets is searched on a subset of them and then
 //! verified and measured through every target.
 
+mod common;
+use common::planted;
+
 use std::sync::atomic::AtomicBool;
 use std::time::Duration;
 
@@ -8,24 +11,10 @@ use crankwright::kinematics::position::closed_form;
 use crankwright::scenario::{Limits, PathSpec, PathTiming};
 use crankwright::synthesis::{synthesize, EngineOptions, Outcome, Silent};
 use crankwright::task::PathTask;
-use crankwright::{Assembly, CouplerPoint, FourBar};
+use crankwright::FourBar;
 use nalgebra::Point2;
 
 const N: usize = 10_000;
-
-/// A crank-rocker of invented proportions whose coupler curve gives the targets.
-fn planted() -> FourBar {
-    FourBar::new(
-        Point2::new(0.0, 0.0),
-        Point2::new(40.0, 5.0),
-        12.0,
-        35.0,
-        30.0,
-        CouplerPoint { p: 15.0, q: 10.0 },
-        Assembly::Open,
-    )
-    .unwrap()
-}
 
 /// Crank angles (from the ground line) over 300 degrees and the coupler points there.
 fn targets(l: &FourBar) -> (Vec<f64>, Vec<Point2<f64>>) {

@@ -2,8 +2,10 @@
 //! design-N-curve.csv; `report DIR` redraws them; the page and every SVG are well-formed XML
 //! holding the expected drawings, and the numbers shown are those of summary.json.
 
+mod common;
+use common::{root, run};
+
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
 
 use approx::assert_relative_eq;
 use crankwright::report::{render_report, ReportError, MOTION_STEP_DEG};
@@ -12,26 +14,6 @@ use crankwright::synthesis::output::{DesignSummary, Summary};
 use crankwright::{load_designs, Assembly, CouplerPoint, Design, DesignFile, FourBar};
 use nalgebra::{Point2, Vector2};
 use roxmltree::{Document, Node, ParsingOptions};
-
-fn bin() -> Command {
-    Command::new(env!("CARGO_BIN_EXE_crankwright"))
-}
-
-fn root() -> PathBuf {
-    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
-}
-
-fn run(args: &[&str]) -> Output {
-    let out = bin().args(args).output().expect("binary runs");
-    if !out.status.success() {
-        eprintln!(
-            "stdout:\n{}\nstderr:\n{}",
-            String::from_utf8_lossy(&out.stdout),
-            String::from_utf8_lossy(&out.stderr)
-        );
-    }
-    out
-}
 
 /// `synth` of a bundled scenario with few starts into a new folder: the folder (kept while
 /// the returned guard lives), summary.json as JSON and as a [`Summary`], and report.html.

@@ -1,28 +1,11 @@
 //! `crankwright synth` end to end: outputs, determinism across thread counts, and the
 //! designs it writes being usable by `check`.
 
-use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+mod common;
+use common::{bin, root, run};
 
-fn bin() -> Command {
-    Command::new(env!("CARGO_BIN_EXE_crankwright"))
-}
-
-fn root() -> PathBuf {
-    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
-}
-
-fn run(args: &[&str]) -> Output {
-    let out = bin().args(args).output().expect("binary runs");
-    if !out.status.success() {
-        eprintln!(
-            "stdout:\n{}\nstderr:\n{}",
-            String::from_utf8_lossy(&out.stdout),
-            String::from_utf8_lossy(&out.stderr)
-        );
-    }
-    out
-}
+use std::path::Path;
+use std::process::Output;
 
 fn synth(dir: &Path, threads: &str) -> Output {
     let scenario = root().join("tests/published/arc5-timed.yaml");

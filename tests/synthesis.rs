@@ -1,5 +1,8 @@
 //! Whole synthesis jobs: planted problems must be recovered.
 
+mod common;
+use common::planted;
+
 use std::sync::atomic::AtomicBool;
 use std::time::Duration;
 
@@ -7,22 +10,8 @@ use crankwright::kinematics::position::closed_form;
 use crankwright::scenario::{Limits, PathSpec, PathTiming};
 use crankwright::synthesis::{synthesize, EngineOptions, Silent};
 use crankwright::task::PathTask;
-use crankwright::{Assembly, CouplerPoint, FourBar};
+use crankwright::FourBar;
 use nalgebra::Point2;
-
-/// A crank-rocker of invented proportions whose coupler curve gives the targets.
-fn planted() -> FourBar {
-    FourBar::new(
-        Point2::new(0.0, 0.0),
-        Point2::new(40.0, 5.0),
-        12.0,
-        35.0,
-        30.0,
-        CouplerPoint { p: 15.0, q: 10.0 },
-        Assembly::Open,
-    )
-    .unwrap()
-}
 
 fn targets(l: &FourBar, phis_deg: &[f64]) -> Vec<Point2<f64>> {
     phis_deg
