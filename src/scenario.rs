@@ -480,7 +480,7 @@ fn check_crank_angles(c: &Checker, rad: &[f64]) -> Result<(), InputError> {
         return Err(c.err(
             "task.path.crank_angles",
             format!(
-                "span {} deg in running order (each step taken in the direction of the first): no four-bar can meet this, the targets must be reached within one turn of the crank",
+                "span {} deg in running order (in the shorter of the two directions): no four-bar can meet this, the targets must be reached within one turn of the crank",
                 crate::input::short(span.to_degrees())
             ),
         ));

@@ -72,6 +72,8 @@ struct Placement {
     o2: Option<Point2<f64>>,
     o4: Option<Point2<f64>>,
     theta1: f64,
+    /// Whether the ground direction is set (given, or by two fixed pivots).
+    theta1_fixed: bool,
     ground: Option<f64>,
 }
 
@@ -190,6 +192,8 @@ impl FunctionTask {
             o2: limits.input_pivot,
             o4: limits.output_pivot,
             theta1,
+            theta1_fixed: limits.ground_angle.is_some()
+                || (limits.input_pivot.is_some() && limits.output_pivot.is_some()),
             ground,
         };
         let ratio = limits
@@ -264,10 +268,19 @@ impl FunctionTask {
     }
 
     /// The user-units linkage for internal proportions `g` (ground = 1).
+    /// The user-units linkage for internal proportions `r = [r2, r3, r4]` (ground = 1): the
+    /// fixed pivots where given; otherwise the ground length (default [`DEFAULT_GROUND`],
+    /// else within what the link-length limits allow) and direction (given, else tried in
+    /// steps of 45 degrees) and the input pivot chosen so that both pivots lie in their
+    /// regions.
+    ///
+    /// # Errors
+    /// [`Rejection::LinkLength`] when no ground length fits the limits,
+    /// [`Rejection::PivotRegion`] when no placement puts the pivots in their regions.
     fn place(&self, r: [f64; 3], assembly: Assembly) -> Result<FourBar, Rejection> {
         let p = &self.placement;
-        let scale = match p.ground {
-            Some(g) => g,
+        let scales: Vec<f64> = match p.ground {
+            Some(g) => vec![g],
             None => {
                 let min = r.iter().copied().fold(1.0, f64::min);
                 let max = r.iter().copied().fold(1.0, f64::max);
@@ -277,29 +290,65 @@ impl FunctionTask {
                         if a > b * (1.0 + 1e-9) {
                             return Err(Rejection::LinkLength);
                         }
-                        DEFAULT_GROUND.clamp(a, b.max(a))
+                        let b = b.max(a);
+                        vec![DEFAULT_GROUND.clamp(a, b), (a * b).sqrt(), a, b]
                     }
-                    None => DEFAULT_GROUND,
+                    None => vec![DEFAULT_GROUND],
                 }
             }
         };
-        let e = unit(p.theta1);
-        let (o2, o4) = match (p.o2, p.o4) {
-            (Some(a), Some(b)) => (a, b),
-            (Some(a), None) => (a, a + scale * e),
-            (None, Some(b)) => (b - scale * e, b),
-            (None, None) => (Point2::origin(), Point2::origin() + scale * e),
+        let angles: Vec<f64> = if p.theta1_fixed {
+            vec![p.theta1]
+        } else {
+            (0..8).map(|k| p.theta1 + f64::from(k) * PI / 4.0).collect()
         };
-        FourBar::new(
-            o2,
-            o4,
-            r[0] * scale,
-            r[1] * scale,
-            r[2] * scale,
-            CouplerPoint::default(),
-            assembly,
-        )
-        .map_err(|_| Rejection::Degenerate)
+        let inside = |q: Point2<f64>, region: Option<(Point2<f64>, Point2<f64>)>| {
+            region.map_or(true, |(lo, hi)| {
+                let m = 1e-9 * (hi - lo).norm();
+                q.x >= lo.x - m && q.x <= hi.x + m && q.y >= lo.y - m && q.y <= hi.y + m
+            })
+        };
+        let (rin, rout) = (self.limits.input_region, self.limits.output_region);
+        for &scale in &scales {
+            for &t in &angles {
+                let d = scale * unit(t);
+                let (o2, o4) = match (p.o2, p.o4) {
+                    (Some(a), Some(b)) => (a, b),
+                    (Some(a), None) => (a, a + d),
+                    (None, Some(b)) => (b - d, b),
+                    (None, None) => {
+                        // O2 in the input region and O2 + d in the output region: the centre of
+                        // the overlap of the two boxes (the output one shifted back by d).
+                        let shifted = rout.map(|(lo, hi)| (lo - d, hi - d));
+                        let o2 = match (rin, shifted) {
+                            (None, None) => Point2::origin(),
+                            (Some(b), None) | (None, Some(b)) => nalgebra::center(&b.0, &b.1),
+                            (Some(a), Some(b)) => {
+                                let (lo, hi) = (a.0.sup(&b.0), a.1.inf(&b.1));
+                                if lo.x > hi.x || lo.y > hi.y {
+                                    continue;
+                                }
+                                nalgebra::center(&lo, &hi)
+                            }
+                        };
+                        (o2, o2 + d)
+                    }
+                };
+                if inside(o2, rin) && inside(o4, rout) {
+                    return FourBar::new(
+                        o2,
+                        o4,
+                        r[0] * scale,
+                        r[1] * scale,
+                        r[2] * scale,
+                        CouplerPoint::default(),
+                        assembly,
+                    )
+                    .map_err(|_| Rejection::Degenerate);
+                }
+            }
+        }
+        Err(Rejection::PivotRegion)
     }
 
     fn n_free_starts(&self) -> usize {

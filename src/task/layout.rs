@@ -176,18 +176,29 @@ impl Layout {
                 (frame.to_internal(lo), frame.to_internal(hi))
             })
         };
-        let region = internal(limits.input_region);
+        let o2 = limits.input_pivot.map(|p| frame.to_internal(p));
+        let o4 = limits.output_pivot.map(|p| frame.to_internal(p));
+        // Without a region of its own, a free pivot next to a fixed one is searched within a
+        // ground link's reach of the fixed one (not in the box around the targets, which a
+        // fixed drive shaft may lie far from).
+        let reach = |p: Point2<f64>| {
+            let w = Vector2::new(length.1, length.1);
+            (p - w, p + w)
+        };
+        let region = match (limits.input_region, o4) {
+            (None, Some(b)) => reach(b),
+            (r, _) => internal(r),
+        };
         // Without a limit of its own, the output pivot is only kept off to infinity.
         let region_out = match (limits.output_region, limits.input_region) {
             (Some(r), _) => internal(Some(r)),
+            (None, _) if o2.is_some() => reach(o2.expect("checked")),
             (None, Some(_)) => {
                 let w = 2.0 * length.1;
                 (region.0 - Vector2::new(w, w), region.1 + Vector2::new(w, w))
             }
             (None, None) => default,
         };
-        let o2 = limits.input_pivot.map(|p| frame.to_internal(p));
-        let o4 = limits.output_pivot.map(|p| frame.to_internal(p));
         let ground = match (o2, o4, limits.ground_angle.map(unit)) {
             (Some(a), Some(b), _) => Ground::BothFixed(a, b),
             (Some(a), None, None) => Ground::InputFixed(a),
@@ -412,7 +423,24 @@ impl Layout {
                 + (lo.y + m - p.y).max(0.0)
                 + (p.y - hi.y + m).max(0.0)
         };
-        out[3] = w * (outside(g.o2, self.region) + outside(g.o4, self.region_out));
+        // A fixed pivot is where the user put it: only free pivots are held to their regions.
+        let (o2_fixed, o4_fixed) = match self.ground {
+            Ground::InputFixed(_) | Ground::AngleInput(..) => (true, false),
+            Ground::OutputFixed(_) | Ground::AngleOutput(..) => (false, true),
+            Ground::BothFixed(..) => (true, true),
+            Ground::Free | Ground::AngleFree(_) => (false, false),
+        };
+        let o2_term = if o2_fixed {
+            0.0
+        } else {
+            outside(g.o2, self.region)
+        };
+        let o4_term = if o4_fixed {
+            0.0
+        } else {
+            outside(g.o4, self.region_out)
+        };
+        out[3] = w * (o2_term + o4_term);
         match (self.full_turn, self.min_transmission) {
             (true, Some(mt)) => {
                 let c = mt.cos() - m;

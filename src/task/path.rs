@@ -35,7 +35,7 @@ use rand::Rng;
 use rand_chacha::ChaCha8Rng;
 
 use super::check::check_motion;
-use super::layout::{Layout, MIN_INCREMENT, PENALTY_WEIGHT};
+use super::layout::{Layout, LIMIT_MARGIN, LIMIT_WEIGHT, MIN_INCREMENT, PENALTY_WEIGHT};
 use super::{Frame, Mode, Rejection, Task, Verified};
 use crate::exact::motion::{
     burmester_curve, burmester_points, dyads_to_linkage, three_pose_dyad, BurmesterOptions, Dyad,
@@ -110,20 +110,36 @@ pub struct PathTask {
     chords: Vec<f64>,
 }
 
-/// Unwraps prescribed crank angles into running order: the direction is that of the first
-/// step (taken the short way round), and every later step is taken in that direction.
+/// Unwraps prescribed crank angles into running order. Angles already monotonic and within
+/// one turn are kept as given; otherwise each step is taken in one direction (modulo a turn),
+/// choosing the direction whose total travel is the shorter, so that `[0, 200, 300]` runs
+/// counter-clockwise through 300 degrees rather than clockwise through 420.
 pub fn unwrap_running(angles: &[f64]) -> Vec<f64> {
     if angles.len() < 2 {
         return angles.to_vec();
     }
-    let first = crate::kinematics::range::wrap_pi(angles[1] - angles[0]);
-    let dir = if first >= 0.0 { 1.0 } else { -1.0 };
-    let mut out = vec![angles[0]];
-    for w in angles.windows(2) {
-        let step = ((w[1] - w[0]) * dir).rem_euclid(TAU) * dir;
-        out.push(out[out.len() - 1] + step);
+    let span = angles[angles.len() - 1] - angles[0];
+    let monotonic = angles
+        .windows(2)
+        .all(|w| (w[1] - w[0]) * span.signum() > 0.0);
+    if monotonic && span.abs() <= TAU {
+        return angles.to_vec();
     }
-    out
+    let unwrap = |dir: f64| -> Vec<f64> {
+        let mut out = vec![angles[0]];
+        for w in angles.windows(2) {
+            let step = ((w[1] - w[0]) * dir).rem_euclid(TAU) * dir;
+            out.push(out[out.len() - 1] + step);
+        }
+        out
+    };
+    let (ccw, cw) = (unwrap(1.0), unwrap(-1.0));
+    let travel = |v: &Vec<f64>| (v[v.len() - 1] - v[0]).abs();
+    if travel(&ccw) <= travel(&cw) {
+        ccw
+    } else {
+        cw
+    }
 }
 
 impl PathTask {
@@ -261,7 +277,8 @@ impl PathTask {
         let theta3 = (b0.y - a0.y).atan2(b0.x - a0.x);
         x.push(wrap_pi(poses[0].angle - theta3));
         let phis: Vec<f64> = poses.iter().map(|p| d_in.crank_angle(p) - t1).collect();
-        let dir = if wrap_pi(phis[1] - phis[0]) >= 0.0 {
+        let run = unwrap_running(&phis);
+        let dir = if run[run.len() - 1] >= run[0] {
             1.0
         } else {
             -1.0
@@ -358,7 +375,8 @@ impl PathTask {
         if matches!(self.timing, Timing::Free) {
             let k = self.timing_start();
             let total: f64 = x[k + 1..].iter().sum();
-            out[base + Layout::N_PENALTIES] = PENALTY_WEIGHT * (total - TAU).max(0.0);
+            out[base + Layout::N_PENALTIES] =
+                LIMIT_WEIGHT * (total - (TAU - LIMIT_MARGIN)).max(0.0);
         }
     }
 }
@@ -507,9 +525,9 @@ impl Task for PathTask {
         // Increment-sum penalty row.
         let row = rows * n + Layout::N_PENALTIES;
         let total: f64 = x[k + 1..].iter().sum();
-        let active = total > TAU;
+        let active = total > TAU - LIMIT_MARGIN;
         for j in 1..n {
-            out[(row, k + j)] = if active { PENALTY_WEIGHT } else { 0.0 };
+            out[(row, k + j)] = if active { LIMIT_WEIGHT } else { 0.0 };
         }
     }
 
@@ -864,6 +882,13 @@ mod tests {
         assert_relative_eq!(u[2].to_degrees(), 400.0, epsilon = 1e-9);
         let u = unwrap_running(&d(&[90.0, 60.0, 300.0]));
         assert_relative_eq!(u[2].to_degrees(), -60.0, epsilon = 1e-9);
+        // A first step of more than half a turn: 300 deg counter-clockwise, not 420 clockwise.
+        let u = unwrap_running(&d(&[0.0, 200.0, 300.0]));
+        assert_relative_eq!(u[2].to_degrees(), 300.0, epsilon = 1e-9);
+        let u = unwrap_running(&d(&[0.0, -200.0, -300.0]));
+        assert_relative_eq!(u[2].to_degrees(), -300.0, epsilon = 1e-9);
+        let u = unwrap_running(&d(&[300.0, 100.0, 20.0]));
+        assert_relative_eq!(u[2].to_degrees(), 20.0, epsilon = 1e-9);
     }
 
     #[test]
