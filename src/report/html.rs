@@ -216,7 +216,7 @@ fn task_title(task: &str) -> &'static str {
 fn rejection_meaning(reason: &str) -> &'static str {
     match reason {
         "degenerate" => "a link collapsed during refinement",
-        "not-assembled" => "cannot be assembled at a target",
+        "not-assembled" => "cannot be assembled at a target, or a target is at a dead point",
         "circuit-defect" => "targets on different circuits",
         "branch-defect" => "a toggle between targets: the drive would have to reverse",
         "order-defect" => "targets reached out of order",

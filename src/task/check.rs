@@ -18,6 +18,10 @@ use crate::scenario::{CrankRequirement, Limits};
 /// rounding.
 pub const LIMIT_SLACK: f64 = 1e-9;
 
+/// Smallest distance (radians of crank angle) between a target and a toggle of the input;
+/// closer, the target counts as a dead point where the linkage cannot be driven.
+pub const TOGGLE_CLEARANCE: f64 = 1e-7;
+
 /// What a successful check found.
 #[derive(Debug, Clone, PartialEq)]
 pub struct MotionCheck {
@@ -128,6 +132,16 @@ pub fn check_motion(
     let asm = linkage.assembly();
     let t1 = linkage.ground_angle();
     let mut tracer = Tracer::new(linkage, *options);
+    // A target at (or within round-off of) a toggle is a dead point: the crank cannot drive
+    // the linkage there, and the continuation cannot start from its singular Jacobian.
+    if let InputRange::Arcs(_) = tracer.range() {
+        if phis
+            .iter()
+            .any(|&p| tracer.range().arc_of(p, -TOGGLE_CLEARANCE).is_none())
+        {
+            return Err(Rejection::NotAssembled);
+        }
+    }
     let Some(mut cur) = tracer.pose_at(t1 + phis[0], asm) else {
         return Err(Rejection::NotAssembled);
     };
@@ -222,5 +236,27 @@ mod tests {
             check_motion(&l, &[3.3, 3.0 + TAU - 1e-3], &any, &SweepOptions::default()),
             Err(Rejection::BranchDefect)
         );
+    }
+
+    // A target exactly at a toggle used to end as "sweep-failed": the continuation started
+    // from a pose with a singular Jacobian. It is a dead point of the input (the crank cannot
+    // drive the linkage there) and is now rejected as such before any tracing.
+    #[test]
+    fn target_at_a_toggle_is_a_dead_point() {
+        let l = bar(5.0, 4.0, 9.0, 6.0);
+        let InputRange::Arcs(arcs) = InputRange::of(&l) else {
+            panic!("a triple rocker rocks")
+        };
+        let a = arcs[0].start.phi;
+        let any = Limits {
+            crank: CrankRequirement::Any,
+            ..Limits::default()
+        };
+        let opts = SweepOptions::default();
+        assert_eq!(
+            check_motion(&l, &[a, a + 0.3], &any, &opts),
+            Err(Rejection::NotAssembled)
+        );
+        assert!(check_motion(&l, &[a + 1e-4, a + 0.3], &any, &opts).is_ok());
     }
 }

@@ -96,7 +96,8 @@ pub enum Rejection {
     /// Refinement produced an invalid linkage (a length collapsed to zero or NaN, or sizes a
     /// design file cannot hold).
     Degenerate,
-    /// Cannot be assembled at one of the targets.
+    /// Cannot be assembled at one of the targets, or a target sits at a toggle (a dead point
+    /// of the input).
     NotAssembled,
     /// Targets lie on different circuits.
     CircuitDefect,
