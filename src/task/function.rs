@@ -501,7 +501,11 @@ impl Task for FunctionTask {
         let at = |xv: f64| {
             self.check
                 .iter()
-                .position(|s| (s.0 - xv).abs() <= 1e-12 * (1.0 + xv.abs()))
+                // The same tolerance as the merging of precision points into the samples.
+                .position(|s| {
+                    (s.0 - xv).abs()
+                        <= 1e-12 * ((self.mapping_x.1 - self.mapping_x.0).abs() + 1.0 + xv.abs())
+                })
         };
         let precision_error = self
             .precision
