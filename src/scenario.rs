@@ -634,7 +634,8 @@ fn check_motion(c: &Checker, m: &MotionFile) -> Result<MotionSpec, InputError> {
     }
     for i in 1..poses.len() {
         let (a, b) = (poses[i - 1], poses[i]);
-        if (a.0 - b.0).norm() == 0.0 && (a.1 - b.1).abs() < 1e-12 {
+        // Angles that differ by whole turns give the same pose.
+        if (a.0 - b.0).norm() == 0.0 && crate::kinematics::range::wrap_pi(a.1 - b.1).abs() < 1e-12 {
             return Err(c.err(
                 format!("task.motion.poses[{i}]"),
                 "repeats the previous pose; consecutive poses must differ",
