@@ -132,16 +132,12 @@ fn check_scale(path: &Path, task: &TaskSpec, limits: &Limits) -> Result<(), Inpu
     let Some((points, field)) = target_points(task) else {
         return Ok(());
     };
-    let Some(first) = points.first() else {
+    let Some((lo, hi)) = crate::linkage::bounding_box(points.iter().copied()) else {
         return Ok(());
     };
-    let (mut lo, mut hi) = (*first, *first);
-    let mut largest: f64 = 0.0;
-    for p in &points {
-        lo = lo.inf(p);
-        hi = hi.sup(p);
-        largest = largest.max(p.x.abs()).max(p.y.abs());
-    }
+    let largest = points
+        .iter()
+        .fold(0.0f64, |m, p| m.max(p.x.abs()).max(p.y.abs()));
     let d = hi - lo;
     let size = d.x.max(d.y);
     if size <= 0.0 {

@@ -26,6 +26,18 @@ pub fn cross(a: Vector2<f64>, b: Vector2<f64>) -> f64 {
     a.x * b.y - a.y * b.x
 }
 
+/// Axis-aligned bounding box `(min corner, max corner)` of the finite points among `points`;
+/// `None` when there are none.
+pub fn bounding_box(
+    points: impl IntoIterator<Item = Point2<f64>>,
+) -> Option<(Point2<f64>, Point2<f64>)> {
+    let mut it = points
+        .into_iter()
+        .filter(|p| p.x.is_finite() && p.y.is_finite());
+    let first = it.next()?;
+    Some(it.fold((first, first), |(lo, hi), p| (lo.inf(&p), hi.sup(&p))))
+}
+
 /// Errors raised when a linkage is built from unchecked numbers.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum LinkageError {

@@ -401,12 +401,8 @@ fn check_path(c: &Checker, p: &PathFile) -> Result<PathSpec, InputError> {
         .enumerate()
         .map(|(i, q)| c.point(&format!("task.path.points[{i}]"), *q))
         .collect::<Result<Vec<_>, _>>()?;
-    let mut lo = points[0];
-    let mut hi = points[0];
-    for q in &points {
-        lo = lo.inf(q);
-        hi = hi.sup(q);
-    }
+    let (lo, hi) = crate::linkage::bounding_box(points.iter().copied())
+        .expect("at least two finite points were checked above");
     let size = (hi - lo).norm();
     if size == 0.0 {
         return Err(c.err("task.path.points", "all targets are the same point"));

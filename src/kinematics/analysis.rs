@@ -94,9 +94,25 @@ pub struct Analysis {
     pub sweep: Sweep,
 }
 
-/// Transmission angle extremes, exactly: `mu` depends on the crank angle only through
-/// `|A - O4|`, which is smallest at `phi = 0`, largest at `phi = pi`, and monotonic between,
-/// so the extremes lie at those two angles or at the toggles.
+/// Crank angles (from the ground line) in `[lo, hi]` where the transmission angle can be
+/// extreme: the two ends and every multiple of `pi` between them. `mu` depends on the crank
+/// angle only through `|A - O4|`, which is smallest at `phi = 0`, largest at `phi = pi`, and
+/// monotonic between.
+pub fn transmission_critical_angles(lo: f64, hi: f64) -> Vec<f64> {
+    let mut out = vec![lo];
+    let mut c = (lo / PI).floor() * PI + PI;
+    while c < hi {
+        out.push(c);
+        c += PI;
+    }
+    if hi > lo {
+        out.push(hi);
+    }
+    out
+}
+
+/// Transmission angle extremes over the input's range of motion, exactly: at the angles of
+/// [`transmission_critical_angles`] and the toggles.
 ///
 /// At a toggle `mu` is exactly 0 (folded) or 180 degrees (extended) by definition; it is
 /// taken so rather than from the law of cosines, which is ill-conditioned there: `mu` grows
@@ -118,11 +134,8 @@ pub fn transmission_summary(linkage: &FourBar, range: &InputRange) -> Option<Tra
         InputRange::Arcs(arcs) => {
             for a in arcs {
                 cand.extend([at_toggle(&a.start), at_toggle(&a.end)]);
-                for c in [0.0, PI, -PI, TAU] {
-                    if c > a.start.phi && c < a.end.phi {
-                        cand.push((c, None));
-                    }
-                }
+                let inner = transmission_critical_angles(a.start.phi, a.end.phi);
+                cand.extend(inner[1..inner.len() - 1].iter().map(|&c| (c, None)));
             }
         }
     }

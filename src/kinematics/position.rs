@@ -428,7 +428,19 @@ pub fn closed_form(linkage: &FourBar, theta2: f64, assembly: Assembly) -> Option
 /// Position at `theta2` for the linkage's own assembly: closed-form guess polished by
 /// Newton-Raphson. `None` when the linkage cannot be assembled there.
 pub fn position_at(linkage: &FourBar, theta2: f64, options: &NewtonOptions) -> Option<Pose> {
-    let guess = closed_form(linkage, theta2, linkage.assembly())?;
+    position_in(linkage, theta2, linkage.assembly(), options)
+}
+
+/// Position at `theta2` for the given assembly: closed-form guess polished by Newton-Raphson
+/// (the closed form itself where Newton stalls, at an exact toggle). `None` when the linkage
+/// cannot be assembled there.
+pub fn position_in(
+    linkage: &FourBar,
+    theta2: f64,
+    assembly: Assembly,
+    options: &NewtonOptions,
+) -> Option<Pose> {
+    let guess = closed_form(linkage, theta2, assembly)?;
     let solve = solve_position(linkage, theta2, &guess, options);
     if solve.converged() {
         Some(solve.pose)
@@ -446,14 +458,7 @@ mod tests {
 
     use crate::linkage::CouplerPoint;
 
-    fn wrap(a: f64) -> f64 {
-        let t = a.rem_euclid(std::f64::consts::TAU);
-        if t > std::f64::consts::PI {
-            t - std::f64::consts::TAU
-        } else {
-            t
-        }
-    }
+    use crate::kinematics::range::wrap_pi as wrap;
 
     fn sample() -> FourBar {
         FourBar::new(

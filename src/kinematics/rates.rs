@@ -144,9 +144,7 @@ mod tests {
     use crate::linkage::{Assembly, CouplerPoint};
     use approx::assert_relative_eq;
 
-    fn wrap(a: f64) -> f64 {
-        (a + std::f64::consts::PI).rem_euclid(std::f64::consts::TAU) - std::f64::consts::PI
-    }
+    use crate::kinematics::range::wrap_pi as wrap;
 
     // Rates checked against central finite differences of the closed-form positions
     // (numerical differentiation as the outside reference).

@@ -8,8 +8,8 @@ use std::f64::consts::TAU;
 use nalgebra::Vector2;
 
 use super::position::{
-    closed_form, newton, solve_position, turn, LoopConstants, NewtonOptions, NewtonStart, Pose,
-    PositionStatus, SERIES_ANGLE, TURN_ROUNDING,
+    newton, position_in, turn, LoopConstants, NewtonOptions, NewtonStart, Pose, PositionStatus,
+    SERIES_ANGLE, TURN_ROUNDING,
 };
 use super::range::{wrap_tau, Arc, InputRange, Toggle};
 use super::rates::ratio_derivatives;
@@ -214,10 +214,8 @@ impl<'a> Tracer<'a> {
     /// A converged pose at `theta2` on the given assembly: closed-form guess polished by
     /// Newton-Raphson. `None` when the linkage does not assemble there.
     pub fn pose_at(&mut self, theta2: f64, assembly: Assembly) -> Option<Pose> {
-        let guess = closed_form(self.linkage, theta2, assembly)?;
         self.solves += 1;
-        let s = solve_position(self.linkage, theta2, &guess, &self.options.newton);
-        Some(if s.converged() { s.pose } else { guess })
+        position_in(self.linkage, theta2, assembly, &self.options.newton)
     }
 
     /// The predictor's node at a solved pose; `None` at a toggle.
@@ -595,6 +593,7 @@ pub fn sweep(linkage: &FourBar, step: f64, options: &SweepOptions) -> Sweep {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::kinematics::position::closed_form;
     use crate::kinematics::range::wrap_pi;
     use crate::linkage::CouplerPoint;
     use approx::assert_relative_eq;

@@ -84,19 +84,7 @@ pub fn footprint(linkage: &FourBar, poses: &[Pose]) -> (Point2<f64>, Point2<f64>
     .expect("the two pivots of a valid linkage are finite")
 }
 
-/// Bounding box of the finite points of `points`, `None` when there are none.
-pub(crate) fn bounds(
-    points: impl IntoIterator<Item = Point2<f64>>,
-) -> Option<(Point2<f64>, Point2<f64>)> {
-    let mut it = points.into_iter().filter(finite);
-    let first = it.next()?;
-    Some(it.fold((first, first), |(lo, hi), p| {
-        (
-            Point2::new(lo.x.min(p.x), lo.y.min(p.y)),
-            Point2::new(hi.x.max(p.x), hi.y.max(p.y)),
-        )
-    }))
-}
+pub(crate) use crate::linkage::bounding_box as bounds;
 
 /// The frame of a to-scale drawing: axes `x (units)` and `y (units)` with equal scaling,
 /// one tick step for both, showing everything in `bbox` with room for symbols; the legend

@@ -57,7 +57,22 @@ pub use study::{FUNCTION_SAMPLES, MOTION_STEP_DEG};
 
 /// Radians to degrees, rounded to 1e-9 degree so that files do not carry float noise.
 pub fn deg(rad: f64) -> f64 {
-    (rad.to_degrees() * 1e9).round() / 1e9
+    round9(rad.to_degrees())
+}
+
+/// A number rounded to 1e-9 (so that files do not carry float noise); huge or non-finite
+/// values unchanged, and no negative zero.
+pub fn round9(v: f64) -> f64 {
+    if v.is_finite() && v.abs() < 1e12 {
+        let r = (v * 1e9).round() / 1e9;
+        if r == 0.0 {
+            0.0
+        } else {
+            r
+        }
+    } else {
+        v
+    }
 }
 
 /// An angle in degrees wrapped into `[0, 360)`.

@@ -8,6 +8,7 @@ use serde::{Deserialize, Serialize};
 use super::{Outcome, StopReason};
 use crate::design::{designs_to_yaml, Design, DesignFile};
 use crate::fsutil::write_atomic;
+use crate::report::round9;
 use crate::scenario::{Scenario, ScenarioFile};
 use crate::SAFETY_NOTE;
 
@@ -72,19 +73,6 @@ pub struct Summary {
     pub scenario: ScenarioFile,
     /// Kinematics-only caution.
     pub caution: String,
-}
-
-fn round9(v: f64) -> f64 {
-    if v.is_finite() && v.abs() < 1e12 {
-        let r = (v * 1e9).round() / 1e9;
-        if r == 0.0 {
-            0.0
-        } else {
-            r
-        }
-    } else {
-        v
-    }
 }
 
 impl Summary {

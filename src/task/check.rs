@@ -8,6 +8,7 @@
 use std::f64::consts::{PI, TAU};
 
 use super::Rejection;
+use crate::kinematics::analysis::transmission_critical_angles;
 use crate::kinematics::position::{closed_form, Pose};
 use crate::kinematics::range::{wrap_pi, InputRange};
 use crate::kinematics::sweep::{SweepOptions, TraceEnd, Tracer};
@@ -78,24 +79,16 @@ pub fn check_limits(linkage: &FourBar, limits: &Limits) -> Result<(), Rejection>
 }
 
 /// Worst transmission quality over crank angles from `phi_a` to `phi_b` (from the ground line,
-/// either order), or over the whole turn when `full` is set. `mu` depends on the crank angle
-/// only through `|A - O4|`, which is extreme at `phi = 0` and `phi = pi`, so the worst value
-/// lies at an end of the range or at one of those angles.
+/// either order), or over the whole turn when `full` is set, at the angles of
+/// [`transmission_critical_angles`].
 pub fn worst_transmission(linkage: &FourBar, phi_a: f64, phi_b: f64, full: bool) -> f64 {
     let t1 = linkage.ground_angle();
-    let mut cand = vec![phi_a, phi_b];
     let (lo, hi) = (phi_a.min(phi_b), phi_a.max(phi_b));
-    if full || hi - lo >= TAU {
-        cand.extend([0.0, PI]);
+    let cand = if full || hi - lo >= TAU {
+        transmission_critical_angles(0.0, TAU)
     } else {
-        for base in [0.0, PI] {
-            let k = ((lo - base) / TAU).ceil();
-            let c = base + k * TAU;
-            if c <= hi {
-                cand.push(c);
-            }
-        }
-    }
+        transmission_critical_angles(lo, hi)
+    };
     cand.iter()
         .filter_map(|phi| linkage.transmission_angle(phi + t1))
         .map(|mu| mu.min(PI - mu))

@@ -82,7 +82,6 @@ struct Placement {
 pub struct FunctionTask {
     layout: Layout,
     mapping_x: (f64, f64),
-    y_ends: (f64, f64),
     input_span: f64,
     output_span: f64,
     input_start: Option<f64>,
@@ -91,12 +90,13 @@ pub struct FunctionTask {
     fit: Vec<(f64, f64)>,
     /// Precision points, same form.
     precision: Vec<(f64, f64)>,
+    /// Points of the Freudenstein starts, same form.
+    seed_points: Vec<(f64, f64)>,
     /// Check samples over the whole range (precision points merged in), same form.
     check: Vec<(f64, f64)>,
     placement: Placement,
     limits: Limits,
     sweep: SweepOptions,
-    source: Source,
 }
 
 fn task_err(field: &str, message: impl Into<String>) -> TaskError {
@@ -166,6 +166,16 @@ impl FunctionTask {
                 .collect::<Result<Vec<_>, _>>()?,
             None => Vec::new(),
         };
+        // The points Freudenstein's equation is solved through for starts: the precision
+        // points, or three Chebyshev-spaced points when the fit is least squares.
+        let seed_points = if precision.len() >= 3 {
+            precision.clone()
+        } else {
+            chebyshev_points(spec.x0, spec.xf, 3)
+                .into_iter()
+                .map(norm)
+                .collect::<Result<Vec<_>, _>>()?
+        };
         let mut check = along(CHECK_SAMPLES)
             .into_iter()
             .map(norm)
@@ -228,18 +238,17 @@ impl FunctionTask {
         Ok(FunctionTask {
             layout: Layout::new(&internal, &frame, false),
             mapping_x: (spec.x0, spec.xf),
-            y_ends: (y0, yf),
             input_span: spec.input_span,
             output_span: spec.output_span,
             input_start: spec.input_start,
             output_start: spec.output_start,
             fit,
             precision,
+            seed_points,
             check,
             placement,
             limits: limits.clone(),
             sweep: SweepOptions::default(),
-            source,
         })
     }
 
@@ -398,18 +407,8 @@ impl Task for FunctionTask {
         // Chebyshev points) at the drawn start angles.
         if rng.random_bool(0.8) {
             let (a0, b0) = self.starts(&x);
-            let pts: Vec<(f64, f64)> = if self.precision.len() >= 3 {
-                self.precision.clone()
-            } else {
-                chebyshev_points(self.mapping_x.0, self.mapping_x.1, 3)
-                    .into_iter()
-                    .map(|xx| {
-                        let y = self.source.eval(xx).unwrap_or(f64::NAN);
-                        (xx, (y - self.y_ends.0) / (self.y_ends.1 - self.y_ends.0))
-                    })
-                    .collect()
-            };
-            let pairs: Vec<AnglePair> = pts
+            let pairs: Vec<AnglePair> = self
+                .seed_points
                 .iter()
                 .map(|s| {
                     let (t2, t4) = self.angles((a0, b0), *s);

@@ -34,12 +34,8 @@ impl Frame {
     /// The frame of a set of points: centre of the bounding box, scale the larger side
     /// (or 1 when all points coincide).
     pub fn of(points: &[Point2<f64>]) -> Self {
-        let mut lo = points.first().copied().unwrap_or_else(Point2::origin);
-        let mut hi = lo;
-        for p in points {
-            lo = lo.inf(p);
-            hi = hi.sup(p);
-        }
+        let (lo, hi) = crate::linkage::bounding_box(points.iter().copied())
+            .unwrap_or((Point2::origin(), Point2::origin()));
         let d = hi - lo;
         let scale = d.x.max(d.y);
         Frame {
