@@ -104,3 +104,24 @@ fn a_fixed_pivot_far_from_the_targets_does_not_spoil_the_fit() {
     let rms = s["designs"][0]["rms_error"].as_f64().unwrap();
     assert!(rms < 1e-8, "rms {rms}");
 }
+
+// A motion task whose frame origin stays put (the body only turns) had an internal scale of
+// 1 unit whatever the link lengths allowed, so a millimetre-sized search never reached links
+// of 50-400 mm: the best design missed the angles by 51 deg. The scale now comes from the
+// limits (here the longest link). The poses are met when the design reproduces them.
+#[test]
+fn a_body_that_only_turns_is_searched_at_the_scale_of_its_links() {
+    let (code, s) = synth_best(
+        "units: mm\ntask:\n  motion:\n    poses: [[500, 500, 0], [500, 500, 30], [500, 500, 60], \
+         [500, 500, 90]]\nlimits:\n  link_length: [50, 400]\n  crank: any\n\
+         search: {seed: 1, starts: 500}\n",
+    );
+    assert_eq!(code, 0, "{s}");
+    let best = &s["designs"][0];
+    let angle = best["max_angle_error"].as_f64().unwrap();
+    let max = best["max_error"].as_f64().unwrap();
+    assert!(
+        angle < 1.0 && max < 1.0,
+        "angle {angle} deg, position {max} mm"
+    );
+}

@@ -15,6 +15,7 @@ use rand_chacha::ChaCha8Rng;
 use serde::Serialize;
 
 use crate::linkage::{Assembly, FourBar, GrashofClass};
+use crate::scenario::Limits;
 
 pub use check::{check_motion, MotionCheck};
 pub use function::FunctionTask;
@@ -45,6 +46,36 @@ impl Frame {
             } else {
                 1.0
             },
+        }
+    }
+    /// The frame of a set of points as [`Frame::of`], but when all points coincide (a motion
+    /// task whose frame origin stays put while only its angle changes) the scale comes from
+    /// the limits: the longest allowed link, else the size of the pivot regions, else the
+    /// distance to a fixed pivot; 1 unit only when the limits say nothing about size.
+    pub fn of_task(points: &[Point2<f64>], limits: &Limits) -> Self {
+        let frame = Frame::of(points);
+        let spread = crate::linkage::bounding_box(points.iter().copied())
+            .map(|(lo, hi)| (hi - lo).amax())
+            .unwrap_or(0.0);
+        if spread > 0.0 {
+            return frame;
+        }
+        let region_size = |r: &Option<crate::scenario::Region>| r.map(|(lo, hi)| (hi - lo).amax());
+        let pivot_distance = |p: &Option<Point2<f64>>| p.map(|p| (p - frame.origin).norm());
+        let scale = [
+            limits.link_length.map(|(_, hi)| hi),
+            region_size(&limits.input_region),
+            region_size(&limits.output_region),
+            pivot_distance(&limits.input_pivot),
+            pivot_distance(&limits.output_pivot),
+        ]
+        .into_iter()
+        .flatten()
+        .find(|s| *s > 0.0 && s.is_finite())
+        .unwrap_or(1.0);
+        Frame {
+            origin: frame.origin,
+            scale,
         }
     }
     /// User point to internal.
@@ -261,5 +292,27 @@ pub fn build(scenario: &crate::scenario::Scenario) -> Result<Box<dyn Task>, Task
         TaskSpec::Path(p) => Ok(Box::new(PathTask::new(p, &scenario.limits))),
         TaskSpec::Motion(m) => Ok(Box::new(PathTask::motion(m, &scenario.limits))),
         TaskSpec::Function(f) => Ok(Box::new(FunctionTask::new(f, &scenario.limits)?)),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use approx::assert_relative_eq;
+
+    #[test]
+    fn coinciding_points_take_their_scale_from_the_limits() {
+        let at = [Point2::new(500.0, 500.0); 3];
+        let mut limits = Limits::default();
+        assert_relative_eq!(Frame::of_task(&at, &limits).scale, 1.0, epsilon = 0.0);
+        limits.input_pivot = Some(Point2::new(500.0, 200.0));
+        assert_relative_eq!(Frame::of_task(&at, &limits).scale, 300.0, epsilon = 1e-12);
+        limits.link_length = Some((50.0, 400.0));
+        let frame = Frame::of_task(&at, &limits);
+        assert_relative_eq!(frame.scale, 400.0, epsilon = 0.0);
+        assert_relative_eq!(frame.origin, Point2::new(500.0, 500.0), epsilon = 0.0);
+        // Points that spread keep the scale of their own bounding box.
+        let spread = [Point2::new(0.0, 0.0), Point2::new(30.0, 10.0)];
+        assert_relative_eq!(Frame::of_task(&spread, &limits).scale, 30.0, epsilon = 0.0);
     }
 }

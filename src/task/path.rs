@@ -146,7 +146,7 @@ impl PathTask {
     /// The task for `spec` within `limits` (searched on [`SEARCH_TARGETS`] of its targets when
     /// it has more).
     pub fn new(spec: &PathSpec, limits: &Limits) -> Self {
-        let frame = Frame::of(&spec.points);
+        let frame = Frame::of_task(&spec.points, limits);
         let all_timing = match &spec.timing {
             PathTiming::Free => Timing::Free,
             PathTiming::Absolute(a) => Timing::Absolute(unwrap_running(a)),
