@@ -69,7 +69,7 @@ enum Command {
         #[arg(long, default_value_t = 5.0)]
         step: f64,
         /// Crank speed, revolutions per minute (positive counter-clockwise).
-        #[arg(long, default_value_t = 60.0)]
+        #[arg(long, default_value_t = 60.0, allow_negative_numbers = true)]
         speed: f64,
         /// Also write the table as CSV to this file.
         #[arg(long)]
@@ -358,9 +358,13 @@ fn run(cli: Cli) -> anyhow::Result<ExitCode> {
                     "alpha4"
                 );
                 for r in &rows {
+                    // "toggle" where the rates are unbounded.
+                    let [w3, w4, a3, a4] = r
+                        .rates()
+                        .map(|v| v.map_or("toggle".to_string(), |v| format!("{v:.4}")));
                     outln!(
-                        "{:>9.3} {:>9.3} {:>9.3} {:>8.3} {:>11.4} {:>11.4} {:>10.4} {:>10.4} {:>11.4} {:>11.4}",
-                        r.theta2, r.theta3, r.theta4, r.mu, r.cx, r.cy, r.omega3, r.omega4, r.alpha3, r.alpha4
+                        "{:>9.3} {:>9.3} {:>9.3} {:>8.3} {:>11.4} {:>11.4} {w3:>10} {w4:>10} {a3:>11} {a4:>11}",
+                        r.theta2, r.theta3, r.theta4, r.mu, r.cx, r.cy
                     );
                 }
             }

@@ -125,3 +125,151 @@ fn a_body_that_only_turns_is_searched_at_the_scale_of_its_links() {
         "angle {angle} deg, position {max} mm"
     );
 }
+
+fn run_json(args: &[&str]) -> serde_json::Value {
+    let o = Command::new(env!("CARGO_BIN_EXE_crankwright"))
+        .args(args)
+        .output()
+        .unwrap();
+    assert_eq!(
+        o.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    serde_json::from_slice(&o.stdout).unwrap()
+}
+
+fn design_file(dir: &tempfile::TempDir, name: &str, yaml: &str) -> String {
+    let path = dir.path().join(name);
+    std::fs::write(&path, yaml).unwrap();
+    path.to_str().unwrap().to_string()
+}
+
+// A grid angle exactly on a toggle was solved by Newton-Raphson on the singular Jacobian,
+// which converges only to about 1e-6 rad there, and printed with rates of 2e6 rad/s; the
+// mirror toggle fell off the grid by rounding and had no row. Triple rocker r1 = 4, r2 = 3,
+// r3 = r4 = 2.5: at crank angles +-90 deg the crank pin (0, +-3) is 5 = r3 + r4 from O4 (4, 0)
+// (the 3-4-5 triangle), so coupler and output lie stretched in line along A -> O4:
+// theta3 = atan2(-+3, 4), theta4 = theta3 + 180 deg, mu = 180 deg, rates unbounded.
+#[test]
+fn grid_angles_on_a_toggle_get_the_exact_pose_and_no_rates() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = design_file(
+        &dir,
+        "t.yaml",
+        "input_pivot: [0, 0]\noutput_pivot: [4, 0]\ninput_link: 3\ncoupler: 2.5\n\
+         output_link: 2.5\nassembly: open\n",
+    );
+    let v = run_json(&["sweep", &d, "--json", "--step", "1"]);
+    let rows = v["rows"].as_array().unwrap();
+    for (at, theta3) in [(90.0, (-3.0f64).atan2(4.0)), (270.0, 3.0f64.atan2(4.0))] {
+        let hits: Vec<&serde_json::Value> = rows
+            .iter()
+            .filter(|r| (r["theta2"].as_f64().unwrap() - at).abs() < 1e-6)
+            .collect();
+        assert_eq!(hits.len(), 1, "rows at {at} deg");
+        let r = hits[0];
+        let want3 = theta3.to_degrees().rem_euclid(360.0);
+        assert!((r["theta3"].as_f64().unwrap() - want3).abs() < 1e-9, "{r}");
+        let want4 = (want3 + 180.0).rem_euclid(360.0);
+        assert!((r["theta4"].as_f64().unwrap() - want4).abs() < 1e-9, "{r}");
+        assert!((r["mu"].as_f64().unwrap() - 180.0).abs() < 1e-9, "{r}");
+        for key in ["omega3", "omega4", "alpha3", "alpha4"] {
+            assert!(r[key].is_null(), "{key} at a toggle: {r}");
+        }
+    }
+}
+
+// A change-point linkage traced through its singular pose restarted from the closed form
+// without carrying the output angle over whole turns, so `check` reported "output turns
+// fully" or swings of 179.7 deg depending only on the direction of the ground line. The
+// analysis grid now starts on the ground line and restarts keep the angle continuous.
+// Parallelogram proportions r1 = r3 = 5, r2 = r4 = 2 (change point, s + l = p + q): on one
+// assembly sign the output turns through exactly half a turn between the two in-line
+// poses at crank angles 0 and 180 deg from the ground line (geometry of the parallelogram
+// and antiparallelogram, closed form).
+#[test]
+fn a_change_point_linkage_is_analysed_alike_however_it_is_turned() {
+    let dir = tempfile::tempdir().unwrap();
+    for (k, angle) in [0.0f64, 0.7, 3.0, -0.5].into_iter().enumerate() {
+        for assembly in ["open", "crossed"] {
+            let (x, y) = (5.0 * angle.cos(), 5.0 * angle.sin());
+            let d = design_file(
+                &dir,
+                &format!("p{k}{assembly}.yaml"),
+                &format!(
+                    "input_pivot: [0, 0]\noutput_pivot: [{x}, {y}]\ninput_link: 2\ncoupler: 5\n\
+                     output_link: 2\nassembly: {assembly}\n"
+                ),
+            );
+            let v = run_json(&["check", &d, "--json"]);
+            let b = &v["branches"][0];
+            assert_eq!(b["output_turns_fully"], false, "{angle} {assembly}: {v}");
+            let swing = b["output_swing"].as_f64().unwrap();
+            assert!(
+                (swing - 180.0).abs() < 1e-6,
+                "{angle} {assembly}: swing {swing}"
+            );
+        }
+    }
+}
+
+// `--speed -30` was read as an unknown option "-3"; a clockwise crank speed is now taken as
+// written. Reversing the crank reverses the angular velocities; with constant speed the
+// accelerations (quadratic in the speed) stay the same.
+#[test]
+fn a_negative_crank_speed_is_accepted_as_written() {
+    let design = concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/scenarios/vent-opener.design.yaml"
+    );
+    let ccw = run_json(&["sweep", design, "--json", "--speed", "30"]);
+    let cw = run_json(&["sweep", design, "--json", "--speed", "-30"]);
+    let (a, b) = (&ccw["rows"][3], &cw["rows"][3]);
+    for (key, sign) in [
+        ("omega3", -1.0),
+        ("omega4", -1.0),
+        ("alpha3", 1.0),
+        ("alpha4", 1.0),
+    ] {
+        let (x, y) = (a[key].as_f64().unwrap(), b[key].as_f64().unwrap());
+        assert!(
+            (y - sign * x).abs() <= 1e-12 * x.abs().max(1.0),
+            "{key}: {x} vs {y}"
+        );
+    }
+}
+
+// Function generators were placed only at a few ground lengths and at directions in steps of
+// 45 deg, so small pivot boxes (here 5 mm squares 60 mm across and 80 mm up) rejected every
+// start although a function generator, which depends only on its proportions, can be scaled
+// and turned onto any two boxes. Ground vectors are now also aimed across the boxes.
+#[test]
+fn function_generator_fits_small_pivot_boxes() {
+    let (code, s) = synth_best(
+        "task:\n  function:\n    formula: \"sqrt(x - 14)\"\n    x: [15, 35]\n    input_span: 90\n\
+         \x20   output_span: 60\n    precision_points: 3\nlimits:\n\
+         \x20 input_pivot_region: [[0, 0], [5, 5]]\n  output_pivot_region: [[60, 80], [65, 85]]\n\
+         \x20 crank: any\nsearch: {starts: 300, seed: 5}\n",
+    );
+    assert_eq!(code, 0, "{s}");
+    let l = &s["designs"][0]["linkage"];
+    for (pivot, lo, hi) in [
+        ("input_pivot", [0.0, 0.0], [5.0, 5.0]),
+        ("output_pivot", [60.0, 80.0], [65.0, 85.0]),
+    ] {
+        for c in 0..2 {
+            let v = l[pivot][c].as_f64().unwrap();
+            assert!(
+                v >= lo[c] - 1e-9 && v <= hi[c] + 1e-9,
+                "{pivot} {}",
+                l[pivot]
+            );
+        }
+    }
+    assert!(
+        s["designs"][0]["precision_error"].as_f64().unwrap() < 1e-6,
+        "{s}"
+    );
+}

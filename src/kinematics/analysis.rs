@@ -6,7 +6,7 @@ use std::f64::consts::{PI, TAU};
 use super::position::Pose;
 use super::range::{InputRange, Toggle, ToggleKind};
 use super::rates::velocity_ratios;
-use super::sweep::{sweep, Sweep, SweepOptions, TraceEnd, Tracer};
+use super::sweep::{sweep_from, Sweep, SweepOptions, TraceEnd, Tracer};
 use crate::linkage::{FourBar, GrashofClass};
 
 /// Options of [`analyse`].
@@ -194,13 +194,21 @@ fn refine_extreme(tracer: &mut Tracer, a: &Pose, b: &Pose) -> Pose {
 
 /// Analyses the design's motion on its own assembly.
 pub fn analyse(linkage: &FourBar, options: &AnalysisOptions) -> Analysis {
-    let sw = sweep(linkage, options.step, &options.sweep);
+    // A grid from the ground line, so that a turned linkage is analysed alike.
+    let sw = sweep_from(
+        linkage,
+        options.step,
+        linkage.ground_angle(),
+        &options.sweep,
+    );
     let mut tracer = Tracer::new(linkage, options.sweep);
     let mut branches = Vec::new();
     let mut time_ratio = None;
     for b in &sw.branches {
         let mut poses = b.poses.clone();
         if let Some((p0, p1)) = b.toggle_poses {
+            // Grid angles on a toggle hold its exact pose, added again below.
+            poses.retain(|p| p.theta2 != p0.theta2 && p.theta2 != p1.theta2);
             // The output's rate is unbounded at a toggle, so its sign there is taken from
             // a pose traced to within the toggle margin; without it an output extreme
             // between a toggle and the nearest grid angle would go unseen.

@@ -512,23 +512,36 @@ fn unwrap_near(pose: Pose, near: &Pose) -> Pose {
     }
 }
 
-/// Crank angles `k * step` (whole `k`) in `[lo, hi]`.
-fn stations(step: f64, lo: f64, hi: f64) -> Vec<f64> {
-    let k0 = (lo / step).ceil() as i64;
-    let k1 = (hi / step).floor() as i64;
-    (k0..=k1).map(|k| k as f64 * step).collect()
+/// Crank angles `origin + k * step` (whole `k`) in `[lo, hi]`, counting one that rounding put
+/// within [`AT_TOGGLE`] outside an end as inside.
+fn stations(step: f64, origin: f64, lo: f64, hi: f64) -> Vec<f64> {
+    let slack = AT_TOGGLE / step;
+    let k0 = ((lo - origin) / step - slack).ceil() as i64;
+    let k1 = ((hi - origin) / step + slack).floor() as i64;
+    (k0..=k1).map(|k| origin + k as f64 * step).collect()
 }
+
+/// Crank-angle distance (radians) within which a grid angle counts as lying on a toggle: the
+/// exact toggle pose is used there, since Newton-Raphson on the singular Jacobian converges
+/// only to about the square root of its tolerance.
+const AT_TOGGLE: f64 = 1e-9;
 
 /// Poses at the crank angles `st` for `assembly`, by continuation from a closed-form start;
 /// where a station cannot be reached (which does not happen inside one arc of motion) the
 /// trace restarts there from the closed form.
 fn trace_stations(tracer: &mut Tracer, st: &[f64], assembly: Assembly) -> Vec<Pose> {
-    let mut poses = Vec::with_capacity(st.len());
+    let mut poses: Vec<Pose> = Vec::with_capacity(st.len());
     let mut i = 0;
     while i < st.len() {
         let Some(p) = tracer.pose_at(st[i], assembly) else {
             i += 1;
             continue;
+        };
+        // A restart (past a point continuation cannot cross, such as the singular pose of a
+        // change-point linkage) continues the angles of the poses before it.
+        let p = match poses.last() {
+            Some(prev) => unwrap_near(p, prev),
+            None => p,
         };
         poses.push(p);
         let before = poses.len();
@@ -543,6 +556,12 @@ fn trace_stations(tracer: &mut Tracer, st: &[f64], assembly: Assembly) -> Vec<Po
 /// on the linkage's own assembly, by Newton-Raphson continuation. Each branch starts from a
 /// closed-form guess at its first grid angle and is then traced grid angle to grid angle.
 pub fn sweep(linkage: &FourBar, step: f64, options: &SweepOptions) -> Sweep {
+    sweep_from(linkage, step, 0.0, options)
+}
+
+/// [`sweep`] over the crank angles `origin + k * step` (radians) instead: with the ground
+/// line's direction as `origin` the grid is the same for a linkage however it is turned.
+pub fn sweep_from(linkage: &FourBar, step: f64, origin: f64, options: &SweepOptions) -> Sweep {
     let mut tracer = Tracer::new(linkage, *options);
     let asm = linkage.assembly();
     let t1 = linkage.ground_angle();
@@ -552,9 +571,9 @@ pub fn sweep(linkage: &FourBar, step: f64, options: &SweepOptions) -> Sweep {
         InputRange::None => {}
         InputRange::FullTurn => {
             // Every multiple of the step in [0, 2 pi), the last one short of a full turn.
-            let st: Vec<f64> = stations(step, 0.0, TAU)
+            let st: Vec<f64> = stations(step, origin, origin, origin + TAU)
                 .into_iter()
-                .filter(|t| *t < TAU - 1e-12)
+                .filter(|t| *t < origin + TAU - 1e-12)
                 .collect();
             let poses = trace_stations(&mut tracer, &st, asm);
             branches.push(Branch {
@@ -568,11 +587,24 @@ pub fn sweep(linkage: &FourBar, step: f64, options: &SweepOptions) -> Sweep {
             for arc in arcs {
                 let lo = t1 + arc.start.phi;
                 let hi = t1 + arc.end.phi;
-                let poses = trace_stations(&mut tracer, &stations(step, lo, hi), asm);
+                let mut st = stations(step, origin, lo, hi);
+                // Grid angles on a toggle take its exact pose, not a trace.
+                let at_start = st.first().is_some_and(|t| (t - lo).abs() <= AT_TOGGLE);
+                let at_end = st.len() > usize::from(at_start)
+                    && st.last().is_some_and(|t| (t - hi).abs() <= AT_TOGGLE);
+                st.drain(st.len() - usize::from(at_end)..);
+                st.drain(..usize::from(at_start));
+                let mut poses = trace_stations(&mut tracer, &st, asm);
                 let a = arc.start.pose(linkage);
                 let a = unwrap_near(a, poses.first().unwrap_or(&a));
                 let b = arc.end.pose(linkage);
                 let b = unwrap_near(b, poses.last().unwrap_or(&a));
+                if at_start {
+                    poses.insert(0, a);
+                }
+                if at_end {
+                    poses.push(b);
+                }
                 branches.push(Branch {
                     assembly: asm,
                     poses,

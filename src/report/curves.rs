@@ -21,12 +21,18 @@ pub fn pose_mu(pose: &Pose) -> f64 {
 /// ends in toggles.
 pub fn branch_poses(branch: &Branch) -> Vec<Pose> {
     let mut poses = Vec::with_capacity(branch.poses.len() + 2);
+    // A grid angle on a toggle already holds the toggle's pose.
+    let same = |a: &Pose, b: Option<&Pose>| b.is_some_and(|b| a.theta2 == b.theta2);
     if let Some((p0, _)) = branch.toggle_poses {
-        poses.push(p0);
+        if !same(&p0, branch.poses.first()) {
+            poses.push(p0);
+        }
     }
     poses.extend_from_slice(&branch.poses);
     if let Some((_, p1)) = branch.toggle_poses {
-        poses.push(p1);
+        if !same(&p1, branch.poses.last()) {
+            poses.push(p1);
+        }
     }
     poses
 }

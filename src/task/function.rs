@@ -17,7 +17,7 @@
 
 use std::f64::consts::{PI, TAU};
 
-use nalgebra::Point2;
+use nalgebra::{Point2, Vector2};
 use rand::Rng;
 use rand_chacha::ChaCha8Rng;
 
@@ -30,7 +30,7 @@ use crate::exact::freudenstein::{design, AnglePair, FreudensteinOptions};
 use crate::kinematics::range::wrap_pi;
 use crate::kinematics::sweep::SweepOptions;
 use crate::linkage::{unit, Assembly, CouplerPoint, FourBar};
-use crate::scenario::{FunctionSource, FunctionSpec, Limits};
+use crate::scenario::{FunctionSource, FunctionSpec, Limits, Region};
 
 /// Evenly spaced samples of the structural error used in refinement.
 pub const FIT_SAMPLES: usize = 41;
@@ -276,20 +276,20 @@ impl FunctionTask {
         )
     }
 
-    /// The user-units linkage for internal proportions `g` (ground = 1).
     /// The user-units linkage for internal proportions `r = [r2, r3, r4]` (ground = 1): the
-    /// fixed pivots where given; otherwise the ground length (default [`DEFAULT_GROUND`],
-    /// else within what the link-length limits allow) and direction (given, else tried in
-    /// steps of 45 degrees) and the input pivot chosen so that both pivots lie in their
-    /// regions.
+    /// fixed pivots where given; otherwise a ground vector `O2 -> O4` of a length the link
+    /// limits allow (default [`DEFAULT_GROUND`]) and a direction (given, else tried in steps
+    /// of 45 degrees, then aimed across the pivot regions), with the input pivot chosen so
+    /// that both pivots lie in their regions.
     ///
     /// # Errors
     /// [`Rejection::LinkLength`] when no ground length fits the limits,
     /// [`Rejection::PivotRegion`] when no placement puts the pivots in their regions.
     fn place(&self, r: [f64; 3], assembly: Assembly) -> Result<FourBar, Rejection> {
         let p = &self.placement;
-        let scales: Vec<f64> = match p.ground {
-            Some(g) => vec![g],
+        // Ground lengths the link limits allow, `[a, b]`, and the ones tried first.
+        let (a, b, scales) = match p.ground {
+            Some(g) => (g, g, vec![g]),
             None => {
                 let min = r.iter().copied().fold(1.0, f64::min);
                 let max = r.iter().copied().fold(1.0, f64::max);
@@ -300,9 +300,9 @@ impl FunctionTask {
                             return Err(Rejection::LinkLength);
                         }
                         let b = b.max(a);
-                        vec![DEFAULT_GROUND.clamp(a, b), (a * b).sqrt(), a, b]
+                        (a, b, vec![DEFAULT_GROUND.clamp(a, b), (a * b).sqrt(), a, b])
                     }
-                    None => vec![DEFAULT_GROUND],
+                    None => (0.0, f64::INFINITY, vec![DEFAULT_GROUND]),
                 }
             }
         };
@@ -311,50 +311,91 @@ impl FunctionTask {
         } else {
             (0..8).map(|k| p.theta1 + f64::from(k) * PI / 4.0).collect()
         };
-        let inside = |q: Point2<f64>, region: Option<(Point2<f64>, Point2<f64>)>| {
+        let inside = |q: Point2<f64>, region: Option<Region>| {
             region.map_or(true, |(lo, hi)| {
                 let m = 1e-9 * (hi - lo).norm();
                 q.x >= lo.x - m && q.x <= hi.x + m && q.y >= lo.y - m && q.y <= hi.y + m
             })
         };
         let (rin, rout) = (self.limits.input_region, self.limits.output_region);
-        for &scale in &scales {
-            for &t in &angles {
-                let d = scale * unit(t);
-                let (o2, o4) = match (p.o2, p.o4) {
-                    (Some(a), Some(b)) => (a, b),
-                    (Some(a), None) => (a, a + d),
-                    (None, Some(b)) => (b - d, b),
-                    (None, None) => {
-                        // O2 in the input region and O2 + d in the output region: the centre of
-                        // the overlap of the two boxes (the output one shifted back by d).
-                        let shifted = rout.map(|(lo, hi)| (lo - d, hi - d));
-                        let o2 = match (rin, shifted) {
-                            (None, None) => Point2::origin(),
-                            (Some(b), None) | (None, Some(b)) => nalgebra::center(&b.0, &b.1),
-                            (Some(a), Some(b)) => {
-                                let (lo, hi) = (a.0.sup(&b.0), a.1.inf(&b.1));
-                                if lo.x > hi.x || lo.y > hi.y {
-                                    continue;
-                                }
-                                nalgebra::center(&lo, &hi)
-                            }
-                        };
-                        (o2, o2 + d)
+        // The ground vectors `O4 - O2` the regions and fixed pivots allow: a box, when bounded.
+        let allowed: Option<Region> = match (p.o2, p.o4, rin, rout) {
+            (Some(_), Some(_), _, _) => None,
+            (Some(o2), None, _, Some(ro)) => Some((ro.0 - o2.coords, ro.1 - o2.coords)),
+            (None, Some(o4), Some(ri), _) => Some((o4 - ri.1.coords, o4 - ri.0.coords)),
+            (None, None, Some(ri), Some(ro)) => Some((ro.0 - ri.1.coords, ro.1 - ri.0.coords)),
+            _ => None,
+        };
+        // First the usual placements (lengths above, directions in 45-degree steps), then
+        // vectors spread over the allowed box, brought to an allowed length and direction.
+        let mut vectors: Vec<Vector2<f64>> = scales
+            .iter()
+            .flat_map(|&s| angles.iter().map(move |&t| s * unit(t)))
+            .collect();
+        if let Some((lo, hi)) = allowed {
+            // A 7 x 7 grid over the box, from its centre outwards.
+            const N: i32 = 3;
+            let mut grid: Vec<(i32, i32)> = (-N..=N)
+                .flat_map(|i| (-N..=N).map(move |j| (i, j)))
+                .collect();
+            grid.sort_by_key(|&(i, j)| (i.abs().max(j.abs()), i.abs() + j.abs()));
+            for (i, j) in grid {
+                let half = f64::from(2 * N);
+                let (fx, fy) = (0.5 + f64::from(i) / half, 0.5 + f64::from(j) / half);
+                let v = Vector2::new(lo.x + fx * (hi.x - lo.x), lo.y + fy * (hi.y - lo.y));
+                let v = if p.theta1_fixed {
+                    let u = unit(p.theta1);
+                    u * v.dot(&u).clamp(a, b)
+                } else {
+                    let n = v.norm();
+                    if n > 0.0 {
+                        v * (n.clamp(a, b) / n)
+                    } else {
+                        unit(p.theta1) * a.max(f64::MIN_POSITIVE)
                     }
                 };
-                if inside(o2, rin) && inside(o4, rout) {
-                    return FourBar::new(
-                        o2,
-                        o4,
-                        r[0] * scale,
-                        r[1] * scale,
-                        r[2] * scale,
-                        CouplerPoint::default(),
-                        assembly,
-                    )
-                    .map_err(|_| Rejection::Degenerate);
+                vectors.push(v);
+            }
+        }
+        for d in vectors {
+            let scale = d.norm();
+            if !(scale > 0.0 && scale.is_finite()) {
+                continue;
+            }
+            let (o2, o4) = match (p.o2, p.o4) {
+                (Some(a), Some(b)) => (a, b),
+                (Some(a), None) => (a, a + d),
+                (None, Some(b)) => (b - d, b),
+                (None, None) => {
+                    // O2 in the input region and O2 + d in the output region: the centre of
+                    // the overlap of the two boxes (the output one shifted back by d).
+                    let shifted = rout.map(|(lo, hi)| (lo - d, hi - d));
+                    let o2 = match (rin, shifted) {
+                        (None, None) => Point2::origin(),
+                        (Some(b), None) | (None, Some(b)) => nalgebra::center(&b.0, &b.1),
+                        (Some(a), Some(b)) => {
+                            let (lo, hi) = (a.0.sup(&b.0), a.1.inf(&b.1));
+                            if lo.x > hi.x || lo.y > hi.y {
+                                continue;
+                            }
+                            nalgebra::center(&lo, &hi)
+                        }
+                    };
+                    (o2, o2 + d)
                 }
+            };
+            let scale = (o4 - o2).norm();
+            if inside(o2, rin) && inside(o4, rout) {
+                return FourBar::new(
+                    o2,
+                    o4,
+                    r[0] * scale,
+                    r[1] * scale,
+                    r[2] * scale,
+                    CouplerPoint::default(),
+                    assembly,
+                )
+                .map_err(|_| Rejection::Degenerate);
             }
         }
         Err(Rejection::PivotRegion)
