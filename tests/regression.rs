@@ -273,3 +273,55 @@ fn function_generator_fits_small_pivot_boxes() {
         "{s}"
     );
 }
+
+// A function design fitted by least squares (no precision points) reported crank angles at
+// x0 and xf, and the report ringed, tabled and captioned them as precision points although
+// the output error there is 0.4 deg. Such designs now have no crank_angles; the report draws
+// them at the ends of the x range, named so, with no precision-point rings or column.
+#[test]
+fn a_least_squares_function_design_has_no_precision_points() {
+    let dir = tempfile::tempdir().unwrap();
+    let scenario = dir.path().join("s.yaml");
+    std::fs::write(
+        &scenario,
+        "task:\n  function:\n    formula: \"log10(x)\"\n    x: [1, 2]\n    input_span: 90\n\
+         \x20   output_span: 60\nlimits:\n  crank: any\nsearch: {starts: 300, seed: 2}\n",
+    )
+    .unwrap();
+    let out = dir.path().join("out");
+    let o = Command::new(env!("CARGO_BIN_EXE_crankwright"))
+        .args([
+            "synth",
+            scenario.to_str().unwrap(),
+            "--out",
+            out.to_str().unwrap(),
+        ])
+        .output()
+        .unwrap();
+    assert_eq!(
+        o.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    let s: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(out.join("summary.json")).unwrap()).unwrap();
+    let best = &s["designs"][0];
+    assert_eq!(best["crank_angles"], serde_json::json!([]), "{best}");
+    assert!(best.get("precision_error").is_none(), "{best}");
+    let span = best["input_end"].as_f64().unwrap() - best["input_start"].as_f64().unwrap();
+    assert!(
+        (span - 90.0).abs() < 1e-9,
+        "input_end - input_start = {span}"
+    );
+    let html = std::fs::read_to_string(out.join("report.html")).unwrap();
+    assert!(
+        !html.contains("class=\"precision-point\""),
+        "precision-point rings drawn"
+    );
+    assert!(
+        !html.contains("precision-point error"),
+        "precision-point column shown"
+    );
+    assert!(html.contains("Ends of the x range"));
+}

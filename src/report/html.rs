@@ -22,7 +22,7 @@ use super::draw::{
 use super::files::{cad_file, check_pairing, curve_file, ReportError};
 use super::legend::{swatch_icon, Swatch};
 use super::plots::{angle_plot_over, error_plot, function_plot, MU_BAND_HIGH, MU_BAND_LOW};
-use super::study::{measure, study_all, FunctionView, Study, MOTION_STEP_DEG};
+use super::study::{drawn_cranks, measure, study_all, FunctionView, Study, MOTION_STEP_DEG};
 use super::style::{self, esc, LINK_WIDTH};
 use crate::design::Design;
 use crate::kinematics::position::Pose;
@@ -359,7 +359,13 @@ pub(crate) fn render_studies(summary: &Summary, designs: &[Design], studies: &[S
     }
     overview(&mut h, summary);
     ranking(&mut h, summary, studies);
-    figure_key(&mut h, &summary.task);
+    let precision_points = summary
+        .scenario
+        .task
+        .function
+        .as_ref()
+        .is_some_and(|f| f.precision_points.is_some());
+    figure_key(&mut h, &summary.task, precision_points);
     for ((s, d), st) in summary
         .designs
         .iter()
@@ -658,7 +664,10 @@ fn ranking(h: &mut String, s: &Summary, studies: &[Study]) {
                     The rejection counts above show what stood in the way: relax those limits or search with more starts.</p></div>\n");
         return;
     }
-    let cols = error_columns(&s.task, &s.units);
+    let mut cols = error_columns(&s.task, &s.units);
+    // Only the measures the designs have (a least-squares function design has no
+    // precision-point error).
+    cols.retain(|c| s.designs.iter().any(|d| measure(d, c.key).is_some()));
     let u = esc(&s.units);
     let _ = write!(
         h,
@@ -668,7 +677,10 @@ fn ranking(h: &mut String, s: &Summary, studies: &[Study]) {
         match s.task.as_str() {
             "motion" => "Errors: distances from the coupler point (the frame origin) to the target poses, and angles of the \
                          coupler frame to theirs; the ranking weighs both together.",
-            "function" => "Errors: the output angle against the desired output, over the range of x and at the precision points.",
+            "function" if cols.iter().any(|c| c.key == "precision_error") => {
+                "Errors: the output angle against the desired output, over the range of x and at the precision points."
+            }
+            "function" => "Errors: the output angle against the desired output, over the range of x.",
             _ => "Errors: distances from the coupler point to the targets.",
         }
     );
@@ -726,7 +738,7 @@ fn icon(w: u32, h: u32, body: &str) -> String {
 }
 
 /// The key to the figures: what each mark and colour means.
-fn figure_key(h: &mut String, task: &str) {
+fn figure_key(h: &mut String, task: &str, precision_points: bool) {
     let mut items: Vec<(String, &str)> = vec![
         (
             swatch_icon(Swatch::Line(style::CRANK, LINK_WIDTH, None)),
@@ -817,7 +829,9 @@ fn figure_key(h: &mut String, task: &str) {
             swatch_icon(Swatch::Line(style::INK, 1.6, Some("7 4"))),
             "desired function",
         ));
-        items.push((swatch_icon(Swatch::Ring(style::TARGET)), "precision point"));
+        if precision_points {
+            items.push((swatch_icon(Swatch::Ring(style::TARGET)), "precision point"));
+        }
     }
     h.push_str(
         "<div class=\"panel figure-key\"><h3>Reading the figures</h3><ul class=\"key-list\">",
@@ -900,10 +914,10 @@ fn design_section(h: &mut String, s: &Summary, d: &DesignSummary, design: &Desig
         linkage_figure(l, poses, &st.curve, &targets, &reached, units, LINKAGE_SIZE)
     };
     let n = poses.len();
-    let what = if s.task == "function" {
-        "precision point"
-    } else {
-        "target"
+    let what = match s.task.as_str() {
+        "function" if d.crank_angles.is_empty() => "x-range end",
+        "function" => "precision point",
+        _ => "target",
     };
     let _ = write!(
         h,
@@ -940,7 +954,8 @@ fn design_section(h: &mut String, s: &Summary, d: &DesignSummary, design: &Desig
         }
         _ => None,
     };
-    let angles = angle_plot_over(&st.angles, &d.crank_angles, working, PLOT_SIZE);
+    let drawn = drawn_cranks(d);
+    let angles = angle_plot_over(&st.angles, &drawn, working, PLOT_SIZE);
     let angles_fig = format!(
         "<figure class=\"angles\">{angles}<figcaption><b>Link angles and transmission angle</b> over the working motion; \
          dotted: the crank angle at each {what}. Shaded: μ from {MU_BAND_LOW}° to {MU_BAND_HIGH}° (common practice).</figcaption></figure>"
@@ -1111,9 +1126,18 @@ fn target_card(
 ) {
     let u = esc(&s.units);
     if s.task == "function" {
-        h.push_str("<div class=\"block\"><h3>Precision points</h3><table class=\"at-targets compact\"><thead><tr><th class=\"num\">#</th>\
-                    <th class=\"num\">crank (°)</th></tr></thead><tbody>");
-        for (i, c) in d.crank_angles.iter().enumerate() {
+        // Least squares has no precision points: the ends of the x range instead.
+        let title = if d.crank_angles.is_empty() {
+            "Ends of the x range (least squares: no precision points)"
+        } else {
+            "Precision points"
+        };
+        let _ = write!(
+            h,
+            "<div class=\"block\"><h3>{title}</h3><table class=\"at-targets compact\"><thead><tr><th class=\"num\">#</th>\
+             <th class=\"num\">crank (°)</th></tr></thead><tbody>"
+        );
+        for (i, c) in drawn_cranks(d).iter().enumerate() {
             let _ = write!(
                 h,
                 "<tr><td class=\"num\">{}</td><td class=\"num\">{}</td></tr>",
@@ -1202,8 +1226,12 @@ fn function_figures(h: &mut String, v: &FunctionView) {
         );
         let _ = write!(
             h,
-            "<figure class=\"function-error\">{ep}<figcaption><b>Output angle error</b>, generated minus desired; \
-             it vanishes at the precision points.</figcaption></figure>"
+            "<figure class=\"function-error\">{ep}<figcaption><b>Output angle error</b>, generated minus desired{}.</figcaption></figure>",
+            if v.precision_x.is_empty() {
+                " (least squares over the whole range: no precision points)"
+            } else {
+                "; it vanishes at the precision points"
+            }
         );
     }
 }

@@ -45,7 +45,8 @@ impl Study {
     pub fn new(design: &Design, summary: &DesignSummary) -> Self {
         let l = &design.linkage;
         let sw = sweep(l, MOTION_STEP_DEG.to_radians(), &SweepOptions::default());
-        let first = summary.crank_angles.first().map(|c| c.to_radians());
+        let drawn = drawn_cranks(summary);
+        let first = drawn.first().map(|c| c.to_radians());
         let working = working_branch(&sw, first);
         let one = Sweep {
             range: sw.range.clone(),
@@ -53,7 +54,7 @@ impl Study {
             solves: sw.solves,
         };
         let motion = working.map(branch_poses).unwrap_or_default();
-        let target_poses = poses_at_cranks(l, &summary.crank_angles);
+        let target_poses = poses_at_cranks(l, &drawn);
         let mut all = motion.clone();
         all.extend(target_poses.iter().flatten().copied());
         Study {
@@ -79,6 +80,22 @@ impl Study {
     pub fn footprint_size(&self) -> (f64, f64) {
         let (lo, hi) = self.footprint;
         (hi.x - lo.x, hi.y - lo.y)
+    }
+}
+
+/// Crank angles (degrees from the ground line) of the positions a design is drawn at: its
+/// targets or precision points; for a function generator fitted by least squares (no
+/// precision points) the two ends of the x range.
+pub fn drawn_cranks(summary: &DesignSummary) -> Vec<f64> {
+    if !summary.crank_angles.is_empty() {
+        return summary.crank_angles.clone();
+    }
+    match (
+        measure(summary, "input_start"),
+        measure(summary, "input_end"),
+    ) {
+        (Some(a), Some(b)) => vec![a, b],
+        _ => Vec::new(),
     }
 }
 

@@ -552,14 +552,12 @@ impl Task for FunctionTask {
             .iter()
             .filter_map(|s| at(s.0).map(|i| errors[i].abs()))
             .fold(0.0f64, f64::max);
-        let crank_angles: Vec<f64> = if self.precision.is_empty() {
-            vec![phis[0], phis[phis.len() - 1]]
-        } else {
-            self.precision
-                .iter()
-                .map(|s| self.angles(starts, *s).0)
-                .collect()
-        };
+        // At the precision points; none for a least-squares design.
+        let crank_angles: Vec<f64> = self
+            .precision
+            .iter()
+            .map(|s| self.angles(starts, *s).0)
+            .collect();
         let mut measures = serde_json::Map::new();
         measures.insert("rms_error".into(), rms.to_degrees().into());
         measures.insert("max_error".into(), max.to_degrees().into());
@@ -578,6 +576,11 @@ impl Task for FunctionTask {
             );
         }
         measures.insert("input_start".into(), wrap_pi(starts.0).to_degrees().into());
+        // The crank angle at the end of the x range, in the same turn as `input_start`.
+        measures.insert(
+            "input_end".into(),
+            (wrap_pi(starts.0) + self.input_span).to_degrees().into(),
+        );
         measures.insert("output_start".into(), wrap_pi(starts.1).to_degrees().into());
         // The curve of the report: x, wanted and generated output angle (degrees from the
         // ground line), every fifth check sample.
