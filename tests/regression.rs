@@ -325,3 +325,44 @@ fn a_least_squares_function_design_has_no_precision_points() {
     );
     assert!(html.contains("Ends of the x range"));
 }
+
+// The angles of a function design were each right only modulo 360: crank angles 301 deg
+// beside input_start -52.7 deg, a report curve starting at 475 deg beside output_start
+// 115 deg, and the curve stopping short of xf. They now share one turn, so that
+// crank = input_start + input_span * (x - x0) / (xf - x0) holds as written (the linear
+// mapping of the scenario format).
+#[test]
+fn function_design_angles_share_one_turn() {
+    let (code, s) = synth_best(
+        "task:\n  function:\n    formula: \"sqrt(x - 14)\"\n    x: [15, 35]\n    input_span: -90\n\
+         \x20   output_span: 60\n    precision_points: 3\nlimits:\n  crank: any\n\
+         search: {starts: 300, seed: 5}\n",
+    );
+    assert_eq!(code, 0, "{s}");
+    let d = &s["designs"][0];
+    let f = |k: &str| d[k].as_f64().unwrap();
+    let (start, end) = (f("input_start"), f("input_end"));
+    assert!((end - start + 90.0).abs() < 1e-9, "{start} -> {end}");
+    let xs = d["precision_x"].as_array().unwrap();
+    let cranks = d["crank_angles"].as_array().unwrap();
+    assert_eq!(xs.len(), cranks.len());
+    for (x, c) in xs.iter().zip(cranks) {
+        let want = start - 90.0 * (x.as_f64().unwrap() - 15.0) / 20.0;
+        assert!(
+            (c.as_f64().unwrap() - want).abs() < 1e-6,
+            "crank {c} vs {want}"
+        );
+    }
+    let curve = d["curve"].as_array().unwrap();
+    let (first, last) = (&curve[0], &curve[curve.len() - 1]);
+    assert!((first[0].as_f64().unwrap() - 15.0).abs() < 1e-12);
+    assert!((last[0].as_f64().unwrap() - 35.0).abs() < 1e-12);
+    assert!(
+        (first[1].as_f64().unwrap() - f("output_start")).abs() < 1e-9,
+        "{first}"
+    );
+    assert!(
+        (last[1].as_f64().unwrap() - f("output_start") - 60.0).abs() < 1e-9,
+        "{last}"
+    );
+}

@@ -552,11 +552,20 @@ impl Task for FunctionTask {
             .iter()
             .filter_map(|s| at(s.0).map(|i| errors[i].abs()))
             .fold(0.0f64, f64::max);
-        // At the precision points; none for a least-squares design.
+        // Reported angles, all in one turn: the crank at the precision points (none for a
+        // least-squares design) with the first in [0, 360) deg, as every result's crank
+        // angles are, and `input_start` shifted by the same whole turns; `output_start` in
+        // (-180, 180] deg with the report curve's angles in its turn.
+        let first = self.precision.first().map(|s| self.angles(starts, *s).0);
+        let turns = match first {
+            Some(c) => (c / TAU).floor(),
+            None => (wrap_pi(starts.0) - starts.0) / -TAU,
+        };
+        let shown = (starts.0 - TAU * turns, wrap_pi(starts.1));
         let crank_angles: Vec<f64> = self
             .precision
             .iter()
-            .map(|s| self.angles(starts, *s).0)
+            .map(|s| self.angles(shown, *s).0)
             .collect();
         let mut measures = serde_json::Map::new();
         measures.insert("rms_error".into(), rms.to_degrees().into());
@@ -575,22 +584,24 @@ impl Task for FunctionTask {
                     .into(),
             );
         }
-        measures.insert("input_start".into(), wrap_pi(starts.0).to_degrees().into());
+        measures.insert("input_start".into(), shown.0.to_degrees().into());
         // The crank angle at the end of the x range, in the same turn as `input_start`.
         measures.insert(
             "input_end".into(),
-            (wrap_pi(starts.0) + self.input_span).to_degrees().into(),
+            (shown.0 + self.input_span).to_degrees().into(),
         );
-        measures.insert("output_start".into(), wrap_pi(starts.1).to_degrees().into());
+        measures.insert("output_start".into(), shown.1.to_degrees().into());
         // The curve of the report: x, wanted and generated output angle (degrees from the
-        // ground line), every fifth check sample.
+        // ground line), every fifth check sample and the last.
+        let last = self.check.len().saturating_sub(1);
         let curve: Vec<[f64; 3]> = self
             .check
             .iter()
             .zip(&check.poses)
-            .step_by(5)
-            .map(|(s, p)| {
-                let want = self.angles(starts, *s).1;
+            .enumerate()
+            .filter(|(i, _)| i % 5 == 0 || *i == last)
+            .map(|(_, (s, p))| {
+                let want = self.angles(shown, *s).1;
                 let got = want + wrap_pi(p.theta4 - t1 - want);
                 [s.0, want.to_degrees(), got.to_degrees()]
             })
