@@ -208,7 +208,7 @@ pub fn analyse(linkage: &FourBar, options: &AnalysisOptions) -> Analysis {
         let mut poses = b.poses.clone();
         if let Some((p0, p1)) = b.toggle_poses {
             // Grid angles on a toggle hold its exact pose, added again below.
-            poses.retain(|p| p.theta2 != p0.theta2 && p.theta2 != p1.theta2);
+            poses.retain(|p| !b.is_toggle_pose(p));
             // The output's rate is unbounded at a toggle, so its sign there is taken from
             // a pose traced to within the toggle margin; without it an output extreme
             // between a toggle and the nearest grid angle would go unseen.

@@ -462,6 +462,18 @@ impl<'a> Tracer<'a> {
     }
 }
 
+impl Branch {
+    /// Whether `pose` is one of the branch's toggle poses (a grid angle on a toggle holds
+    /// the toggle's exact pose, so the two may appear in a list together).
+    pub fn is_toggle_pose(&self, pose: &Pose) -> bool {
+        self.toggle_poses.is_some_and(|(a, b)| {
+            [a, b]
+                .iter()
+                .any(|t| (t.theta2 - pose.theta2).abs() <= AT_TOGGLE * 1e-3)
+        })
+    }
+}
+
 /// One branch of a sweep: poses at the grid angles inside one stretch of motion.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Branch {

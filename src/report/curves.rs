@@ -20,19 +20,14 @@ pub fn pose_mu(pose: &Pose) -> f64 {
 /// The poses of a branch in crank order, with the exact toggle poses at its ends when it
 /// ends in toggles.
 pub fn branch_poses(branch: &Branch) -> Vec<Pose> {
+    // Grid angles on a toggle hold its exact pose, added here.
     let mut poses = Vec::with_capacity(branch.poses.len() + 2);
-    // A grid angle on a toggle already holds the toggle's pose.
-    let same = |a: &Pose, b: Option<&Pose>| b.is_some_and(|b| a.theta2 == b.theta2);
     if let Some((p0, _)) = branch.toggle_poses {
-        if !same(&p0, branch.poses.first()) {
-            poses.push(p0);
-        }
+        poses.push(p0);
     }
-    poses.extend_from_slice(&branch.poses);
+    poses.extend(branch.poses.iter().filter(|p| !branch.is_toggle_pose(p)));
     if let Some((_, p1)) = branch.toggle_poses {
-        if !same(&p1, branch.poses.last()) {
-            poses.push(p1);
-        }
+        poses.push(p1);
     }
     poses
 }
