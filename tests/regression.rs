@@ -33,10 +33,14 @@ fn a_closed_output_pipe_ends_quietly() {
 }
 
 fn synth_best(yaml: &str) -> (i32, serde_json::Value) {
-    let dir = tempfile::tempdir().unwrap();
-    let scenario = dir.path().join("s.yaml");
+    synth_in(tempfile::tempdir().unwrap().path(), yaml)
+}
+
+/// Runs `synth` on the scenario `yaml` with its output in `dir/out`: exit code and summary.
+fn synth_in(dir: &std::path::Path, yaml: &str) -> (i32, serde_json::Value) {
+    let scenario = dir.join("s.yaml");
     std::fs::write(&scenario, yaml).unwrap();
-    let out = dir.path().join("out");
+    let out = dir.join("out");
     let o = Command::new(env!("CARGO_BIN_EXE_crankwright"))
         .args([
             "synth",
@@ -281,31 +285,12 @@ fn function_generator_fits_small_pivot_boxes() {
 #[test]
 fn a_least_squares_function_design_has_no_precision_points() {
     let dir = tempfile::tempdir().unwrap();
-    let scenario = dir.path().join("s.yaml");
-    std::fs::write(
-        &scenario,
+    let (code, s) = synth_in(
+        dir.path(),
         "task:\n  function:\n    formula: \"log10(x)\"\n    x: [1, 2]\n    input_span: 90\n\
          \x20   output_span: 60\nlimits:\n  crank: any\nsearch: {starts: 300, seed: 2}\n",
-    )
-    .unwrap();
-    let out = dir.path().join("out");
-    let o = Command::new(env!("CARGO_BIN_EXE_crankwright"))
-        .args([
-            "synth",
-            scenario.to_str().unwrap(),
-            "--out",
-            out.to_str().unwrap(),
-        ])
-        .output()
-        .unwrap();
-    assert_eq!(
-        o.status.code(),
-        Some(0),
-        "{}",
-        String::from_utf8_lossy(&o.stderr)
     );
-    let s: serde_json::Value =
-        serde_json::from_slice(&std::fs::read(out.join("summary.json")).unwrap()).unwrap();
+    assert_eq!(code, 0, "{s}");
     let best = &s["designs"][0];
     assert_eq!(best["crank_angles"], serde_json::json!([]), "{best}");
     assert!(best.get("precision_error").is_none(), "{best}");
@@ -314,7 +299,7 @@ fn a_least_squares_function_design_has_no_precision_points() {
         (span - 90.0).abs() < 1e-9,
         "input_end - input_start = {span}"
     );
-    let html = std::fs::read_to_string(out.join("report.html")).unwrap();
+    let html = std::fs::read_to_string(dir.path().join("out/report.html")).unwrap();
     assert!(
         !html.contains("class=\"precision-point\""),
         "precision-point rings drawn"
