@@ -351,3 +351,24 @@ fn function_design_angles_share_one_turn() {
         "{last}"
     );
 }
+
+// Without a pivot region the search kept the pivots within 3 target-set sizes of the
+// targets (a penalty, not a stated limit), so a planted design whose output pivot lies
+// farther away was missed (best sum sq 4.4e-3, min transmission 2 deg) although it meets
+// every limit given. Refinement may now go ten times wider than the box the starts come
+// from where the user set no limit. Targets: the coupler point (p 100, q 60 from A towards
+// B) of the open crank-rocker O2 (0, 0), O4 (200, 0), r2 50, r3 180, r4 120 at crank angles
+// 0..40 deg, by the closed-form circle intersection (checked in a separate script).
+#[test]
+fn limits_not_given_do_not_hide_the_planted_design() {
+    let (code, s) = synth_best(
+        "task:\n  path:\n    points: [[85.313730334, 111.143782777], [90.980856425, 117.575628445], \
+         [94.816604808, 123.459374422], [96.613101672, 128.720049286], [96.348845288, 133.2857573]]\n\
+         \x20   crank_angles: [0, 10, 20, 30, 40]\nlimits:\n  link_length: [10, 400]\n\
+         search: {seed: 1, starts: 2000}\n",
+    );
+    assert_eq!(code, 0, "{s}");
+    let best = &s["designs"][0];
+    let sum = best["sum_squared_error"].as_f64().unwrap();
+    assert!(sum < 1e-12, "sum sq {sum}");
+}

@@ -525,6 +525,8 @@ fn search(
     } else {
         (options.hop_fraction * options.starts as f64).ceil() as usize
     };
+    // Perturbations on the scale of the starts' box, clamped to the bounds.
+    let (box_lo, box_hi) = task.search_box();
     let done = AtomicUsize::new(0);
     let mut hop_pool = Pool::new(pool_cap);
     let mut hop_accepted = 0;
@@ -545,7 +547,7 @@ fn search(
                     .iter()
                     .enumerate()
                     .map(|(i, v)| {
-                        let span = hi[i] - lo[i];
+                        let span = box_hi[i] - box_lo[i];
                         let g: f64 = rng.random_range(-1.0..1.0) + rng.random_range(-1.0..1.0);
                         (v + sigma * span * g).clamp(lo[i], hi[i])
                     })

@@ -147,6 +147,10 @@ pub struct Layout {
     pub region_out: (Point2<f64>, Point2<f64>),
     /// Coupler point bound: `|p|, |q| <= coupler_bound`.
     pub coupler_bound: f64,
+    /// Where random starts are drawn: the same as the bounds, except that where the user gave
+    /// no limit an opened layout ([`Layout::opened`]) bounds the refinement far wider than it
+    /// draws its starts.
+    search: SearchBox,
     max_ratio: Option<f64>,
     min_transmission: Option<f64>,
     full_turn: bool,
@@ -154,30 +158,46 @@ pub struct Layout {
     with_coupler_point: bool,
 }
 
-/// Default link length range, in multiples of the target set's size.
+/// Default link length range of the starts, in multiples of the target set's size.
 pub const DEFAULT_LENGTH_RANGE: (f64, f64) = (0.05, 5.0);
-/// Default pivot region half-width around the targets' centre, in multiples of their size.
+/// Default pivot region half-width of the starts around the targets' centre, in multiples of
+/// their size.
 pub const DEFAULT_REGION_HALF_WIDTH: f64 = 3.0;
+/// How many times wider than the starts' defaults an opened layout lets refinement go where
+/// the user set no limit: far enough that the defaults do not decide the design, near enough
+/// to keep links of a sane size.
+pub const OPEN_FACTOR: f64 = 10.0;
 
-impl Layout {
-    /// The layout for `limits` in the internal units of `frame`. `with_coupler_point`: whether
-    /// `p, q` are variables (otherwise they are zero).
-    pub fn new(limits: &Limits, frame: &Frame, with_coupler_point: bool) -> Self {
+/// Lengths, pivot regions and coupler-point bound of a box of variables.
+#[derive(Debug, Clone, Copy, PartialEq)]
+struct SearchBox {
+    length: (f64, f64),
+    region: (Point2<f64>, Point2<f64>),
+    region_out: (Point2<f64>, Point2<f64>),
+    coupler_bound: f64,
+}
+
+impl SearchBox {
+    /// The box for `limits` with `length` and `half` (region half-width) standing in for the
+    /// link-length limit and pivot regions the user did not give.
+    fn new(
+        limits: &Limits,
+        frame: &Frame,
+        default_length: (f64, f64),
+        half: f64,
+        o2: Option<Point2<f64>>,
+        o4: Option<Point2<f64>>,
+    ) -> Self {
         let s = frame.scale;
         let length = limits
             .link_length
-            .map_or(DEFAULT_LENGTH_RANGE, |(a, b)| (a / s, b / s));
-        let default = (
-            Point2::new(-DEFAULT_REGION_HALF_WIDTH, -DEFAULT_REGION_HALF_WIDTH),
-            Point2::new(DEFAULT_REGION_HALF_WIDTH, DEFAULT_REGION_HALF_WIDTH),
-        );
+            .map_or(default_length, |(a, b)| (a / s, b / s));
+        let default = (Point2::new(-half, -half), Point2::new(half, half));
         let internal = |r: Option<(Point2<f64>, Point2<f64>)>| {
             r.map_or(default, |(lo, hi)| {
                 (frame.to_internal(lo), frame.to_internal(hi))
             })
         };
-        let o2 = limits.input_pivot.map(|p| frame.to_internal(p));
-        let o4 = limits.output_pivot.map(|p| frame.to_internal(p));
         // Without a region of its own, a free pivot next to a fixed one is searched within a
         // ground link's reach of the fixed one (not in the box around the targets, which a
         // fixed drive shaft may lie far from).
@@ -199,6 +219,29 @@ impl Layout {
             }
             (None, None) => default,
         };
+        SearchBox {
+            length,
+            region,
+            region_out,
+            coupler_bound: length.1,
+        }
+    }
+}
+
+impl Layout {
+    /// The layout for `limits` in the internal units of `frame`. `with_coupler_point`: whether
+    /// `p, q` are variables (otherwise they are zero).
+    pub fn new(limits: &Limits, frame: &Frame, with_coupler_point: bool) -> Self {
+        let o2 = limits.input_pivot.map(|p| frame.to_internal(p));
+        let o4 = limits.output_pivot.map(|p| frame.to_internal(p));
+        let search = SearchBox::new(
+            limits,
+            frame,
+            DEFAULT_LENGTH_RANGE,
+            DEFAULT_REGION_HALF_WIDTH,
+            o2,
+            o4,
+        );
         let ground = match (o2, o4, limits.ground_angle.map(unit)) {
             (Some(a), Some(b), _) => Ground::BothFixed(a, b),
             (Some(a), None, None) => Ground::InputFixed(a),
@@ -210,15 +253,42 @@ impl Layout {
         };
         Layout {
             ground,
-            length,
-            region,
-            region_out,
-            coupler_bound: length.1,
+            length: search.length,
+            region: search.region,
+            region_out: search.region_out,
+            coupler_bound: search.coupler_bound,
+            search,
             max_ratio: limits.max_length_ratio,
             min_transmission: limits.min_transmission,
             full_turn: limits.crank == CrankRequirement::FullTurn,
             with_coupler_point,
         }
+    }
+
+    /// This layout with the refinement's bounds opened [`OPEN_FACTOR`] times wider than the
+    /// starts' box where `limits` set no link-length limit or pivot region (the starts are
+    /// still drawn from the usual box).
+    pub fn opened(mut self, limits: &Limits, frame: &Frame) -> Self {
+        let o2 = limits.input_pivot.map(|p| frame.to_internal(p));
+        let o4 = limits.output_pivot.map(|p| frame.to_internal(p));
+        let wide = SearchBox::new(
+            limits,
+            frame,
+            (DEFAULT_LENGTH_RANGE.0, DEFAULT_LENGTH_RANGE.1 * OPEN_FACTOR),
+            DEFAULT_REGION_HALF_WIDTH * OPEN_FACTOR,
+            o2,
+            o4,
+        );
+        self.length = wide.length;
+        self.region = wide.region;
+        self.region_out = wide.region_out;
+        self.coupler_bound = wide.coupler_bound;
+        self
+    }
+
+    /// The box random starts are drawn from, as bounds of the layout's variables.
+    pub fn search_bounds(&self) -> (Vec<f64>, Vec<f64>) {
+        self.bounds_of(&self.search)
     }
 
     fn ground_dim(&self) -> usize {
@@ -241,8 +311,17 @@ impl Layout {
 
     /// Bounds of the layout's variables.
     pub fn bounds(&self) -> (Vec<f64>, Vec<f64>) {
-        let (lo, hi) = self.region;
-        let (l0, l1) = self.length;
+        self.bounds_of(&SearchBox {
+            length: self.length,
+            region: self.region,
+            region_out: self.region_out,
+            coupler_bound: self.coupler_bound,
+        })
+    }
+
+    fn bounds_of(&self, sb: &SearchBox) -> (Vec<f64>, Vec<f64>) {
+        let (lo, hi) = sb.region;
+        let (l0, l1) = sb.length;
         let mut a = Vec::with_capacity(self.dim());
         let mut b = Vec::with_capacity(self.dim());
         let (pivot, r1, angle) = match self.ground {
@@ -271,8 +350,8 @@ impl Layout {
         }
         if self.with_coupler_point {
             for _ in 0..2 {
-                a.push(-self.coupler_bound);
-                b.push(self.coupler_bound);
+                a.push(-sb.coupler_bound);
+                b.push(sb.coupler_bound);
             }
         }
         (a, b)
@@ -344,7 +423,7 @@ impl Layout {
     /// full-turn crank is required the lengths are redrawn until the input can turn fully
     /// (the crank drawn from the short end of the range).
     pub fn sample(&self, rng: &mut ChaCha8Rng) -> Vec<f64> {
-        let (lo, hi) = self.bounds();
+        let (lo, hi) = self.search_bounds();
         let mut x: Vec<f64> = lo
             .iter()
             .zip(&hi)
@@ -352,7 +431,7 @@ impl Layout {
             .collect();
         let k = self.ground_dim();
         let log_uniform = rng.random_bool(0.5);
-        let (l0, l1) = self.length;
+        let (l0, l1) = self.search.length;
         let draw = |rng: &mut ChaCha8Rng, short: bool| -> f64 {
             let top = if short { l0 + 0.3 * (l1 - l0) } else { l1 };
             if log_uniform {
@@ -385,7 +464,7 @@ impl Layout {
             }
         }
         if self.with_coupler_point && log_uniform {
-            let reach = x[k + 1].min(self.coupler_bound);
+            let reach = x[k + 1].min(self.search.coupler_bound);
             x[k + 3] = rng.random_range(-reach..=reach);
             x[k + 4] = rng.random_range(-reach..=reach);
         }

@@ -198,6 +198,11 @@ pub trait Task: Sync {
     fn n_residuals(&self) -> usize;
     /// Lower and upper bounds of the variables (internal units).
     fn bounds(&self) -> (Vec<f64>, Vec<f64>);
+    /// The box random starts are drawn from, within the bounds; its size sets the scale of
+    /// perturbations and of the distance between designs. Default: the bounds.
+    fn search_box(&self) -> (Vec<f64>, Vec<f64>) {
+        self.bounds()
+    }
     /// A random start: variables inside the bounds and a mode.
     fn sample(&self, rng: &mut ChaCha8Rng) -> (Vec<f64>, Mode);
     /// Residuals at `x` for `mode`, written to `out` (length [`Task::n_residuals`]).
@@ -226,7 +231,7 @@ pub trait Task: Sync {
     /// A measure of how far apart two candidates are (0 for the same design), used to merge
     /// near-duplicates; default: largest difference of variables relative to the box.
     fn distance(&self, a: &[f64], b: &[f64]) -> f64 {
-        let (lo, hi) = self.bounds();
+        let (lo, hi) = self.search_box();
         a.iter()
             .zip(b)
             .enumerate()

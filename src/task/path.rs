@@ -185,7 +185,7 @@ impl PathTask {
             frame,
             angles: None,
             dyads: Vec::new(),
-            layout: Layout::new(limits, &frame, true),
+            layout: Layout::new(limits, &frame, true).opened(limits, &frame),
             targets,
             user_targets: points,
             full,
@@ -317,6 +317,27 @@ impl PathTask {
         self.layout.dim() + usize::from(self.angles.is_some())
     }
 
+    /// `layout` bounds followed by those of the frame angle (motion) and the timing variables.
+    fn with_angle_bounds(&self, (mut a, mut b): (Vec<f64>, Vec<f64>)) -> (Vec<f64>, Vec<f64>) {
+        if self.angles.is_some() {
+            a.push(-TAU);
+            b.push(TAU);
+        }
+        match self.timing {
+            Timing::Free => {
+                let (ta, tb) = Layout::timing_bounds(self.n());
+                a.extend(ta);
+                b.extend(tb);
+            }
+            Timing::Relative(_) => {
+                a.push(-TAU);
+                b.push(2.0 * TAU);
+            }
+            Timing::Absolute(_) => {}
+        }
+        (a, b)
+    }
+
     /// The internal frame (scaling) of the task.
     pub fn frame(&self) -> &Frame {
         &self.frame
@@ -401,24 +422,11 @@ impl Task for PathTask {
     }
 
     fn bounds(&self) -> (Vec<f64>, Vec<f64>) {
-        let (mut a, mut b) = self.layout.bounds();
-        if self.angles.is_some() {
-            a.push(-TAU);
-            b.push(TAU);
-        }
-        match self.timing {
-            Timing::Free => {
-                let (ta, tb) = Layout::timing_bounds(self.n());
-                a.extend(ta);
-                b.extend(tb);
-            }
-            Timing::Relative(_) => {
-                a.push(-TAU);
-                b.push(2.0 * TAU);
-            }
-            Timing::Absolute(_) => {}
-        }
-        (a, b)
+        self.with_angle_bounds(self.layout.bounds())
+    }
+
+    fn search_box(&self) -> (Vec<f64>, Vec<f64>) {
+        self.with_angle_bounds(self.layout.search_bounds())
     }
 
     fn sample(&self, rng: &mut ChaCha8Rng) -> (Vec<f64>, Mode) {
