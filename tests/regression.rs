@@ -372,3 +372,41 @@ fn limits_not_given_do_not_hide_the_planted_design() {
     let sum = best["sum_squared_error"].as_f64().unwrap();
     assert!(sum < 1e-12, "sum sq {sum}");
 }
+
+// `synth --force` into the folder of an earlier run with more designs left that run's
+// design-N.svg and design-N-curve.csv beside the new summary; exports of ranks the new
+// summary does not have are now removed.
+#[test]
+fn a_forced_rerun_leaves_no_exports_of_the_earlier_run() {
+    let dir = tempfile::tempdir().unwrap();
+    let scenario = |keep: usize| {
+        format!(
+            "task:\n  path:\n    points: [[0, 0], [40, 10], [80, 40], [100, 80], [90, 100]]\n\
+             limits:\n  crank: any\nsearch: {{seed: 3, starts: 300, keep: {keep}}}\n"
+        )
+    };
+    let (code, first) = synth_in(dir.path(), &scenario(4));
+    assert_eq!(code, 0);
+    let n_first = first["designs"].as_array().unwrap().len();
+    assert!(n_first > 1, "{first}");
+    std::fs::write(dir.path().join("s.yaml"), scenario(1)).unwrap();
+    let out = dir.path().join("out");
+    let o = Command::new(env!("CARGO_BIN_EXE_crankwright"))
+        .args([
+            "synth",
+            dir.path().join("s.yaml").to_str().unwrap(),
+            "--out",
+        ])
+        .arg(&out)
+        .arg("--force")
+        .output()
+        .unwrap();
+    assert_eq!(o.status.code(), Some(0));
+    let mut names: Vec<String> = std::fs::read_dir(&out)
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .filter(|n| n.starts_with("design-"))
+        .collect();
+    names.sort();
+    assert_eq!(names, ["design-1-curve.csv", "design-1.svg"]);
+}

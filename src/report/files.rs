@@ -185,5 +185,38 @@ pub fn write_report(dir: &Path, summary: &Summary, designs: &[Design]) -> Result
             &csv_curve(&d.linkage, &study.motion, &d.units),
         )?;
     }
-    write(REPORT_FILE, &render_studies(summary, designs, &studies))
+    write(REPORT_FILE, &render_studies(summary, designs, &studies))?;
+    remove_stale_exports(dir, summary)
+}
+
+/// Removes `design-N.svg` and `design-N-curve.csv` files in `dir` whose `N` is no rank of
+/// `summary` (left by an earlier run into the same folder), so that the folder holds one run.
+///
+/// # Errors
+/// [`ReportError::Io`] when the folder cannot be read or a file removed.
+fn remove_stale_exports(dir: &Path, summary: &Summary) -> Result<(), ReportError> {
+    let io = |path: &Path| {
+        let path = path.to_path_buf();
+        move |source| ReportError::Io { path, source }
+    };
+    let ranks: std::collections::BTreeSet<usize> = summary.designs.iter().map(|d| d.rank).collect();
+    for entry in std::fs::read_dir(dir).map_err(io(dir))? {
+        let path = entry.map_err(io(dir))?.path();
+        let Some(name) = path.file_name().and_then(|n| n.to_str()) else {
+            continue;
+        };
+        let rank = name
+            .strip_prefix("design-")
+            .and_then(|r| {
+                r.strip_suffix(".svg")
+                    .or_else(|| r.strip_suffix("-curve.csv"))
+            })
+            .and_then(|r| r.parse::<usize>().ok());
+        if let Some(rank) = rank {
+            if !ranks.contains(&rank) && (name == cad_file(rank) || name == curve_file(rank)) {
+                std::fs::remove_file(&path).map_err(io(&path))?;
+            }
+        }
+    }
+    Ok(())
 }
