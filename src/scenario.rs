@@ -446,6 +446,22 @@ fn check_path(c: &Checker, p: &PathFile) -> Result<PathSpec, InputError> {
                 })
                 .collect::<Result<Vec<_>, _>>()?;
             check_crank_angles(c, &rad)?;
+            // A full turn from the first target to the last brings the crank, and with it
+            // the coupler point, back to the first target.
+            let run = crate::task::path::unwrap_running(&rad);
+            let turn = (run[run.len() - 1] - run[0]).abs();
+            let last = points.len() - 1;
+            if (turn - std::f64::consts::TAU).abs() <= 1e-9 * std::f64::consts::TAU
+                && (points[last] - points[0]).norm() > 1e-9 * size
+            {
+                return Err(c.err(
+                    format!("task.path.crank_angles[{last}]"),
+                    format!(
+                        "{} deg is a full turn from the first crank angle, which puts the coupler point back on the first target, but the last target is elsewhere",
+                        crate::input::short(a[last])
+                    ),
+                ));
+            }
             match t.unwrap_or_default() {
                 TimingFile::Absolute => PathTiming::Absolute(rad),
                 TimingFile::Relative => PathTiming::Relative(rad),

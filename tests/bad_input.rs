@@ -330,6 +330,15 @@ fn path_targets_and_crank_angles_are_checked() {
             "repeats the previous crank angle",
         ],
     );
+    // A full turn from the first target to the last returns the coupler point to the first.
+    bad_scenario(
+        &with("    crank_angles: [0, 90, 180, 360]\n"),
+        &[
+            "task.path.crank_angles[3]",
+            "full turn",
+            "the last target is elsewhere",
+        ],
+    );
     bad_scenario(
         &with("    crank_angles: [0, 170, 340, 150]\n"),
         &[
