@@ -349,8 +349,10 @@ impl GrashofClass {
     /// linkage counts as a change point.
     pub const CHANGE_POINT_TOL: f64 = 1e-9;
 
-    /// Classifies lengths `r1` (ground), `r2` (input), `r3` (coupler), `r4` (output).
-    pub fn of(r1: f64, r2: f64, r3: f64, r4: f64) -> Self {
+    /// Grashof excess `(s + l - (p + q)) / (r1 + r2 + r3 + r4)` of the lengths (ground,
+    /// input, coupler, output), with the indices of the shortest and longest link (equal
+    /// when all four are equal): negative for a Grashof linkage, zero at a change point.
+    pub fn excess(r1: f64, r2: f64, r3: f64, r4: f64) -> (f64, usize, usize) {
         let l = [r1, r2, r3, r4];
         let sum: f64 = l.iter().sum();
         let (mut si, mut li) = (0usize, 0usize);
@@ -362,12 +364,17 @@ impl GrashofClass {
                 li = i;
             }
         }
+        ((l[si] + l[li] - (sum - l[si] - l[li])) / sum, si, li)
+    }
+
+    /// Classifies lengths `r1` (ground), `r2` (input), `r3` (coupler), `r4` (output).
+    pub fn of(r1: f64, r2: f64, r3: f64, r4: f64) -> Self {
+        let (excess, si, li) = Self::excess(r1, r2, r3, r4);
         if si == li {
             // All four equal: a parallelogram/kite at its limit, s + l = p + q.
             return GrashofClass::ChangePoint;
         }
-        let excess = l[si] + l[li] - (sum - l[si] - l[li]);
-        if excess.abs() <= Self::CHANGE_POINT_TOL * sum {
+        if excess.abs() <= Self::CHANGE_POINT_TOL {
             GrashofClass::ChangePoint
         } else if excess > 0.0 {
             GrashofClass::TripleRocker

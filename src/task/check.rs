@@ -38,6 +38,11 @@ pub struct MotionCheck {
 /// region and the crank requirement.
 ///
 /// # Errors
+/// Relative Grashof excess (see [`GrashofClass::excess`]) within which a design that must
+/// turn its crank fully counts as a change point: within it the linkage passes almost flat
+/// (transmission angle near zero) once a turn.
+pub const FOLD_MARGIN: f64 = 1e-6;
+
 /// The first limit violated.
 pub fn check_limits(linkage: &FourBar, limits: &Limits) -> Result<(), Rejection> {
     // A design its own file could not hold (see `design::linkage_scale_problem`).
@@ -69,6 +74,12 @@ pub fn check_limits(linkage: &FourBar, limits: &Limits) -> Result<(), Rejection>
         }
     }
     if limits.crank == CrankRequirement::FullTurn {
+        // A crank that must turn fully must also clear the change point by a margin: next
+        // to it the linkage passes almost flat once a turn (transmission angle near 0).
+        let [r1, r2, r3, r4] = linkage.lengths();
+        if GrashofClass::excess(r1, r2, r3, r4).0.abs() <= FOLD_MARGIN {
+            return Err(Rejection::ChangePoint);
+        }
         match linkage.grashof() {
             GrashofClass::CrankRocker | GrashofClass::DoubleCrank => {}
             GrashofClass::ChangePoint => return Err(Rejection::ChangePoint),
@@ -187,6 +198,21 @@ mod tests {
 
     fn bar(r1: f64, r2: f64, r3: f64, r4: f64) -> FourBar {
         FourBar::on_x_axis([r1, r2, r3, r4], Assembly::Open).unwrap()
+    }
+
+    // Grashof's condition (s + l <= p + q for a link to turn fully; DOMAIN.md): lengths
+    // 121.2417, 121.2269, 121.2536, 121.2389 have s + l - (p + q) = -1.1e-4, a relative excess
+    // of -2.3e-7, so the crank turns fully but the linkage passes within 0.001 deg of flat.
+    #[test]
+    fn a_crank_next_to_the_change_point_does_not_count_as_turning_fully() {
+        let near = bar(121.2417, 121.2269, 121.2536, 121.2389);
+        assert_eq!(near.grashof(), GrashofClass::CrankRocker);
+        let mut lim = Limits::default();
+        assert_eq!(check_limits(&near, &lim), Err(Rejection::ChangePoint));
+        lim.crank = CrankRequirement::Any;
+        assert_eq!(check_limits(&near, &lim), Ok(()));
+        let clear = bar(7.0, 2.0, 9.0, 6.0);
+        assert_eq!(check_limits(&clear, &Limits::default()), Ok(()));
     }
 
     #[test]
