@@ -151,6 +151,8 @@ pub struct Layout {
     /// no limit an opened layout ([`Layout::opened`]) bounds the refinement far wider than it
     /// draws its starts.
     search: SearchBox,
+    /// Whether the output pivot has a region of its own (given, or both pivots').
+    output_region_given: bool,
     max_ratio: Option<f64>,
     min_transmission: Option<f64>,
     full_turn: bool,
@@ -258,6 +260,7 @@ impl Layout {
             region_out: search.region_out,
             coupler_bound: search.coupler_bound,
             search,
+            output_region_given: limits.output_region.is_some(),
             max_ratio: limits.max_length_ratio,
             min_transmission: limits.min_transmission,
             full_turn: limits.crank == CrankRequirement::FullTurn,
@@ -449,9 +452,24 @@ impl Layout {
             | Ground::AngleOutput(..) => Some(0),
             Ground::BothFixed(..) => None,
         };
+        // With a region for the output pivot, half of the starts with free pivots draw it
+        // there too (the ground link then joins the two draws), so that a small output region
+        // is not left to the chance of a random ground length and direction.
+        let both_in_boxes =
+            self.ground == Ground::Free && self.output_region_given && rng.random_bool(0.5);
         for attempt in 0..50 {
             if let Some(i) = r1_index {
                 x[i] = draw(rng, false);
+            }
+            if both_in_boxes {
+                let (lo, hi) = self.search.region_out;
+                let o4 = Point2::new(rng.random_range(lo.x..=hi.x), rng.random_range(lo.y..=hi.y));
+                let d = o4 - Point2::new(x[0], x[1]);
+                let r1 = d.norm();
+                if r1 >= l0 && r1 <= l1 {
+                    x[2] = r1;
+                    x[3] = d.y.atan2(d.x);
+                }
             }
             x[k] = draw(rng, self.full_turn && attempt > 0);
             x[k + 1] = draw(rng, false);
