@@ -9,16 +9,19 @@ use std::path::{Path, PathBuf};
 
 use approx::assert_relative_eq;
 use crankwright::report::{render_report, ReportError, MOTION_STEP_DEG};
-use crankwright::scenario::{FunctionFile, ScenarioFile, TaskFile};
+use crankwright::scenario::{CrankRequirement, FunctionFile, LimitsFile, ScenarioFile, TaskFile};
 use crankwright::synthesis::output::{DesignSummary, Summary};
 use crankwright::{load_designs, Assembly, CouplerPoint, Design, DesignFile, FourBar};
 use nalgebra::{Point2, Vector2};
 use roxmltree::{Document, Node, ParsingOptions};
 
-/// `synth` of a bundled scenario with few starts into a new folder: the folder (kept while
-/// the returned guard lives), summary.json as JSON and as a [`Summary`], and report.html.
+/// `synth` of a bundled scenario with few starts into a new folder, and the checks every
+/// report passes: self-contained, each figure's legend complete, the ranking's numbers
+/// those of summary.json (`error_keys` among them). Returns the folder (kept while the
+/// returned guard lives), summary.json as JSON and as a [`Summary`], and report.html.
 fn synth_run(
     scenario: &str,
+    error_keys: &[&str],
 ) -> (
     tempfile::TempDir,
     PathBuf,
@@ -31,13 +34,13 @@ fn synth_run(
     synth(scenario, &dir);
     let text = std::fs::read_to_string(dir.join("summary.json")).unwrap();
     let html = std::fs::read_to_string(dir.join("report.html")).unwrap();
-    (
-        tmp,
-        dir,
-        serde_json::from_str(&text).unwrap(),
-        serde_json::from_str(&text).unwrap(),
-        html,
-    )
+    let json: serde_json::Value = serde_json::from_str(&text).unwrap();
+    let doc = parse(&html);
+    check_self_contained(&html, &doc);
+    check_legends(&doc);
+    check_ranking(&doc, &json, error_keys);
+    drop(doc);
+    (tmp, dir, json, serde_json::from_str(&text).unwrap(), html)
 }
 
 /// `synth` of a bundled scenario with few starts into `dir`.
@@ -55,6 +58,9 @@ fn synth(scenario: &str, dir: &Path) {
     ]);
     assert!(out.status.success(), "synth {scenario} failed");
 }
+
+/// The error measures of path generation in summary.json.
+const PATH_ERRORS: &[&str] = &["sum_squared_error", "rms_error", "max_error"];
 
 fn parse(text: &str) -> Document<'_> {
     let options = ParsingOptions {
@@ -251,17 +257,12 @@ fn csv_rows(text: &str) -> Vec<Vec<f64>> {
 
 #[test]
 fn path_report_from_synth_and_redrawn_by_report() {
-    let (_tmp, dir, json, summary, html) = synth_run("tests/published/arc5-timed.yaml");
+    let (_tmp, dir, _json, summary, html) =
+        synth_run("tests/published/arc5-timed.yaml", PATH_ERRORS);
     let designs = load_designs(&dir.join("designs.yaml")).unwrap();
     let n = designs.len();
     assert!(n >= 1);
     let doc = parse(&html);
-    check_self_contained(&html, &doc);
-    check_ranking(
-        &doc,
-        &json,
-        &["sum_squared_error", "rms_error", "max_error"],
-    );
 
     // The first three in full: one drawing per target position, the coupler curve, the
     // targets and their error vectors; the angle plot marks every target; an animation.
@@ -280,6 +281,12 @@ fn path_report_from_synth_and_redrawn_by_report() {
         assert_eq!(within(angles, "rect", "band").len(), 1);
         let anim = one(*s, "figure", "animation");
         assert!(anim.descendants().any(|c| c.has_tag_name("animate")));
+        // Crank angles 30..90 deg: counter-clockwise. The scenario requires a full turn,
+        // the scope of min_transmission, so no second figure for it.
+        check_direction(*s, true);
+        let (label, _, _) = tile(*s, "min_transmission").unwrap();
+        assert!(label.ends_with("full turn"), "{label}");
+        assert!(tile(*s, "full_turn_transmission").is_none());
     }
 
     // Exports: the CAD drawing at the first target and the motion every degree of crank
@@ -333,12 +340,8 @@ fn path_report_from_synth_and_redrawn_by_report() {
 
 #[test]
 fn motion_report_draws_frames_at_every_pose() {
-    let (_tmp, dir, json, summary, html) = synth_run("scenarios/bin-lid.yaml");
-    let doc = parse(&html);
-    check_self_contained(&html, &doc);
-    check_ranking(
-        &doc,
-        &json,
+    let (_tmp, dir, json, summary, html) = synth_run(
+        "scenarios/bin-lid.yaml",
         &[
             "sum_squared_error",
             "rms_error",
@@ -346,6 +349,7 @@ fn motion_report_draws_frames_at_every_pose() {
             "max_angle_error",
         ],
     );
+    let doc = parse(&html);
     let poses = 5;
     let sections = within(doc.root_element(), "section", "design");
     assert_eq!(sections.len(), summary.designs.len().min(3));
@@ -358,6 +362,42 @@ fn motion_report_draws_frames_at_every_pose() {
         assert_eq!(within(fig, "path", "coupler-curve").len(), 1);
         let close = one(*s, "figure", "closeup");
         assert_eq!(within(close, "g", "coupler-frame").len(), poses);
+        assert!(legend_texts(close).iter().any(|t| t == "coupler curve"));
+    }
+    // The coupler frame angle, which designs.yaml does not hold: in each design's
+    // dimensions and in the appendix, as summary.json has it (six significant digits).
+    let designs_json = json["designs"].as_array().unwrap();
+    for (s, d) in sections.iter().zip(designs_json) {
+        let row = one(*s, "table", "dimensions")
+            .descendants()
+            .find(|r| r.has_tag_name("tr") && r.attribute("data-key") == Some("frame_angle"))
+            .expect("frame angle row");
+        let shown: f64 = text_of(row.last_element_child().unwrap())
+            .split('°')
+            .next()
+            .unwrap()
+            .parse()
+            .unwrap();
+        assert_relative_eq!(
+            shown,
+            d["frame_angle"].as_f64().unwrap(),
+            max_relative = 5e-6
+        );
+        check_direction(*s, ccw_of(d));
+    }
+    let rows = within(doc.root_element(), "tr", "dimension-row");
+    assert_eq!(rows.len(), designs_json.len());
+    for (row, d) in rows.iter().zip(designs_json) {
+        let cell = row
+            .children()
+            .find(|c| c.attribute("data-key") == Some("frame_angle"))
+            .expect("frame angle column");
+        let shown: f64 = text_of(cell).parse().unwrap();
+        assert_relative_eq!(
+            shown,
+            d["frame_angle"].as_f64().unwrap(),
+            max_relative = 5e-6
+        );
     }
     // The scenario lets the input rock: for a design whose input cannot turn fully the
     // curve export runs toggle to toggle, its ends in line (transmission angle 0 or 180
@@ -414,9 +454,21 @@ fn report_refuses_missing_or_mismatched_files() {
 /// (2 r2 r4)` by a linear solve. Demo task (invented): `y = x^1.5` on `[1, 3]`, the crank
 /// turning 90 degrees from 30, the output 40 degrees from 45; ground 70 mm.
 fn function_case() -> (Summary, Vec<Design>) {
+    function_case_turning(30.0, 90.0, 45.0, 40.0)
+}
+
+/// [`function_case`] with the crank turning `span_in` degrees from `input_start` and the
+/// output `span_out` from `output_start` (angles from the ground line). Its mirror image in
+/// the ground line, `(-30, -90, -45, -40)`, has the same link lengths (Freudenstein's
+/// equation holds the cosines only) and runs clockwise.
+fn function_case_turning(
+    input_start: f64,
+    span_in: f64,
+    output_start: f64,
+    span_out: f64,
+) -> (Summary, Vec<Design>) {
     let (x0, xf) = (1.0f64, 3.0f64);
     let f = |x: f64| x.powf(1.5);
-    let (input_start, span_in, output_start, span_out) = (30.0f64, 90.0, 45.0f64, 40.0);
     let cheb: Vec<f64> = (1..=3)
         .map(|j| {
             0.5 * (x0 + xf)
@@ -466,8 +518,10 @@ fn function_case() -> (Summary, Vec<Design>) {
         .map(|x| input_start + span_in * (x - x0) / (xf - x0))
         .collect();
     let mut measures = serde_json::Map::new();
+    measures.insert("precision_x".into(), cheb.clone().into());
     for (k, v) in [
         ("input_start", input_start),
+        ("input_end", input_start + span_in),
         ("output_start", output_start),
         ("rms_error", 0.4321),
         ("max_error", 0.987_65),
@@ -501,29 +555,45 @@ fn function_case() -> (Summary, Vec<Design>) {
             }),
             ..TaskFile::default()
         },
-        limits: Default::default(),
+        // The crank may rock: min_transmission is taken over the x range.
+        limits: LimitsFile {
+            crank: Some(CrankRequirement::Any),
+            ..LimitsFile::default()
+        },
         search: Default::default(),
     };
     let summary = Summary {
-        task: "function".into(),
-        name: "dial".into(),
-        units: "mm".into(),
-        seed: 1,
-        starts: 10,
         starts_run: 4,
-        seconds: 0.5,
-        evaluations: 1234,
         interrupted: true,
         stop_reason: Some("time-limit".into()),
-        accepted: 1,
         rejected: [("not-assembled".to_string(), 3usize)]
             .into_iter()
             .collect(),
+        ..hand_made("function", "dial", ds, scenario)
+    };
+    (summary, vec![design])
+}
+
+/// The summary of a hand-made run of `task` that kept the one design `ds`: ten starts, all
+/// run, nothing rejected.
+fn hand_made(task: &str, name: &str, ds: DesignSummary, scenario: ScenarioFile) -> Summary {
+    Summary {
+        task: task.into(),
+        name: name.into(),
+        units: "mm".into(),
+        seed: 1,
+        starts: 10,
+        starts_run: 10,
+        seconds: 0.5,
+        evaluations: 1234,
+        interrupted: false,
+        stop_reason: None,
+        accepted: 1,
+        rejected: Default::default(),
         designs: vec![ds],
         scenario,
         caution: crankwright::SAFETY_NOTE.into(),
-    };
-    (summary, vec![design])
+    }
 }
 
 // Function generation, written against the result fields the function task reports
@@ -599,4 +669,459 @@ fn report_of_a_run_without_designs_and_of_mismatched_designs() {
     assert!(within(doc.root_element(), "tr", "design-row").is_empty());
     assert_eq!(within(doc.root_element(), "p", "none").len(), 1);
     assert_eq!(within(doc.root_element(), "tr", "rejection").len(), 1);
+}
+
+/// Each drawn class of a figure and the legend entries that may name it.
+const LEGEND_OF: &[(&str, &str, &[&str])] = &[
+    ("line", "crank", &["crank"]),
+    ("polygon", "coupler", &["coupler"]),
+    ("line", "output", &["output link"]),
+    ("line", "ground-line", &["ground line O2–O4"]),
+    ("path", "coupler-curve", &["coupler curve"]),
+    ("g", "target", &["target"]),
+    ("g", "coupler-frame", &["coupler frame"]),
+    ("g", "target-frame", &["target frame"]),
+    ("g", "target-mark", &["target", "precision point"]),
+    ("g", "range-end", &["x-range end"]),
+    ("circle", "precision-point", &["precision point"]),
+    ("path", "desired", &["desired"]),
+    ("path", "generated", &["generated"]),
+    ("path", "error", &["generated − desired"]),
+    ("path", "theta3", &["θ3 coupler"]),
+    ("path", "theta4", &["θ4 output"]),
+    ("path", "mu", &["μ transmission"]),
+    ("rect", "band", &["40–140°"]),
+];
+
+/// Texts of the legend strip of a figure.
+fn legend_texts(fig: Node) -> Vec<String> {
+    within(fig, "g", "legend")
+        .into_iter()
+        .flat_map(|g| g.descendants().filter(|n| n.has_tag_name("text")))
+        .map(text_of)
+        .collect()
+}
+
+/// Every figure of the page names in its legend each kind of mark it draws.
+fn check_legends(doc: &Document) {
+    for fig in doc.descendants().filter(|n| n.has_tag_name("figure")) {
+        let legend = legend_texts(fig);
+        for (tag, class, names) in LEGEND_OF {
+            if !within(fig, tag, class).is_empty() {
+                assert!(
+                    names.iter().any(|n| legend.iter().any(|l| l == n)),
+                    "figure {:?} draws <{tag} class={class}> but its legend {legend:?} does not name it",
+                    fig.attribute("class")
+                );
+            }
+        }
+    }
+}
+
+/// Crank angles (degrees, unwrapped) of the animation's crank joint A about O2 at every
+/// key frame of a design section; pixel y grows downwards.
+fn animated_cranks(section: Node) -> Vec<f64> {
+    let anim = one(section, "figure", "animation");
+    let crank = one(anim, "line", "crank");
+    let (x1, y1) = (num_attr(crank, "x1"), num_attr(crank, "y1"));
+    let values = |attr: &str| -> Vec<f64> {
+        crank
+            .children()
+            .find(|c| c.has_tag_name("animate") && c.attribute("attributeName") == Some(attr))
+            .unwrap_or_else(|| panic!("no animation of {attr}"))
+            .attribute("values")
+            .unwrap()
+            .split(';')
+            .map(|v| v.parse().unwrap())
+            .collect()
+    };
+    let (xs, ys) = (values("x2"), values("y2"));
+    let mut out: Vec<f64> = Vec::new();
+    for (x, y) in xs.iter().zip(&ys) {
+        let a = (-(y - y1)).atan2(x - x1).to_degrees();
+        let a = match out.last() {
+            Some(p) => p + (a - p + 180.0).rem_euclid(360.0) - 180.0,
+            None => a,
+        };
+        out.push(a);
+    }
+    out
+}
+
+/// The header of a design section says which way the crank runs, and the animation runs
+/// it that way: key frames in decreasing crank angle when clockwise (the first stroke of a
+/// rocking input, the whole loop of a crank that turns fully).
+fn check_direction(section: Node, ccw: bool) {
+    let head = text_of(one(section, "span", "direction"));
+    let way = if ccw {
+        "counter-clockwise"
+    } else {
+        "clockwise"
+    };
+    assert!(
+        head.starts_with(&format!("crank runs {way} from")),
+        "{head}"
+    );
+    let cranks = animated_cranks(section);
+    assert!(cranks.len() > 10);
+    let sign = if ccw { 1.0 } else { -1.0 };
+    // The first stroke: up to the turning point of a rocking input, or the whole loop.
+    let turn = cranks
+        .windows(2)
+        .position(|w| (w[1] - w[0]) * sign < 0.0)
+        .unwrap_or(cranks.len() - 1);
+    assert!(
+        turn > 5,
+        "the animation starts the wrong way: {:?}",
+        &cranks[..4]
+    );
+    for w in cranks[..=turn].windows(2) {
+        assert!((w[1] - w[0]) * sign > 0.0, "{w:?}");
+    }
+}
+
+/// A stat tile of a design section: its label and value.
+fn tile(section: Node, key: &str) -> Option<(String, f64, bool)> {
+    within(section, "div", "stat")
+        .into_iter()
+        .find(|n| n.attribute("data-key") == Some(key))
+        .map(|t| {
+            let label = text_of(one(t, "div", "label"));
+            let value = text_of(one(t, "div", "value"));
+            let number = value.split_whitespace().next().unwrap().parse().unwrap();
+            (label, number, has_class(&t, "warn"))
+        })
+}
+
+/// Worst transmission quality `min(mu, 180 - mu)` over a full turn of a crank that turns
+/// fully, degrees: `|A - O4|` runs over `[r1 - r2, r1 + r2]`, its ends with the crank along
+/// the ground line and opposite it, and `mu` follows from the law of cosines at `B`,
+/// `cos mu = (r3^2 + r4^2 - |A - O4|^2) / (2 r3 r4)` (the transmission-angle formula of the
+/// domain notes; the extremes at the crank in line with the ground are the classic result,
+/// e.g. R. L. Norton, Design of Machinery, section on the transmission angle; from memory).
+fn full_turn_quality(l: &FourBar) -> f64 {
+    let [r1, r2, r3, r4] = l.lengths();
+    [r1 - r2, r1 + r2]
+        .iter()
+        .map(|d| {
+            let mu = ((r3 * r3 + r4 * r4 - d * d) / (2.0 * r3 * r4))
+                .clamp(-1.0, 1.0)
+                .acos()
+                .to_degrees();
+            mu.min(180.0 - mu)
+        })
+        .fold(f64::INFINITY, f64::min)
+}
+
+/// Path generation with a crank that turns fully while the scenario lets it rock (`crank:
+/// any`), so that the result's min_transmission is taken between the targets only. Demo
+/// data (invented): a crank-rocker (ground 40 at 20 deg, crank 18, coupler 35, output 30;
+/// Grashof, crank shortest) whose coupler point passes four targets 0.2 mm off, at crank
+/// angles 200, 170, 140 and 110 deg from the ground line: the crank runs clockwise.
+fn rocking_path_case() -> (Summary, Vec<Design>) {
+    let g = 20f64.to_radians();
+    let l = FourBar::new(
+        Point2::new(5.0, -3.0),
+        Point2::new(5.0 + 40.0 * g.cos(), -3.0 + 40.0 * g.sin()),
+        18.0,
+        35.0,
+        30.0,
+        CouplerPoint { p: 15.0, q: 10.0 },
+        Assembly::Open,
+    )
+    .unwrap();
+    assert!(l.grashof().input_turns_fully());
+    let cranks = [200.0, 170.0, 140.0, 110.0];
+    let poses = crankwright::report::poses_at_cranks(&l, &cranks).expect("assembles");
+    let reached: Vec<Point2<f64>> = poses
+        .iter()
+        .map(|p| l.coupler_point_at(p.theta2, p.theta3))
+        .collect();
+    let targets: Vec<[f64; 2]> = reached.iter().map(|r| [r.x + 0.2, r.y]).collect();
+    let design = Design {
+        name: Some("wiper #1".into()),
+        units: "mm".into(),
+        linkage: l,
+    };
+    let n = cranks.len() as f64;
+    let mut measures = serde_json::Map::new();
+    for (k, v) in [
+        ("sum_squared_error", 0.04 * n),
+        ("rms_error", 0.2),
+        ("max_error", 0.2),
+    ] {
+        measures.insert(k.into(), v.into());
+    }
+    let between = crankwright::task::check::worst_transmission(
+        &l,
+        cranks[0].to_radians(),
+        cranks[3].to_radians(),
+        false,
+    )
+    .to_degrees();
+    let ds = DesignSummary {
+        rank: 1,
+        linkage: DesignFile::from(&design),
+        crank_angles: cranks.to_vec(),
+        grashof: l.grashof().name().into(),
+        min_transmission: between,
+        length_ratio: l.length_ratio(),
+        reached: reached.iter().map(|r| [r.x, r.y]).collect(),
+        measures,
+    };
+    let scenario: ScenarioFile = serde_yaml::from_str(&format!(
+        "name: wiper\nunits: mm\ntask:\n  path:\n    points: {}\nlimits:\n  min_transmission: 25\n  crank: any\n",
+        serde_json::to_string(&targets).unwrap()
+    ))
+    .unwrap();
+    let summary = hand_made("path", "wiper", ds, scenario);
+    (summary, vec![design])
+}
+
+// A crank that turns fully, its min_transmission taken between the targets (the scenario
+// lets the input rock): the page names that scope, and shows the worst transmission over
+// the full turn beside it, flagged below 40 deg (common practice, no source); the closed
+// form of `full_turn_quality` is the reference. The crank runs clockwise from target 1 to
+// 4, and the animation runs it so.
+#[test]
+fn full_turn_transmission_shown_beside_the_working_one() {
+    let (summary, designs) = rocking_path_case();
+    let html = render_report(&summary, &designs).unwrap();
+    let doc = parse(&html);
+    check_self_contained(&html, &doc);
+    check_legends(&doc);
+    let l = &designs[0].linkage;
+    let full = full_turn_quality(l);
+    assert!(full < 40.0 && full + 1.0 < summary.designs[0].min_transmission);
+    let s = one(doc.root_element(), "section", "design");
+    let (label, v, warn) = tile(s, "min_transmission").unwrap();
+    assert!(label.ends_with("between targets"), "{label}");
+    assert_relative_eq!(
+        v,
+        summary.designs[0].min_transmission,
+        epsilon = 0.05 + 1e-9
+    );
+    assert!(!warn, "{v} is above 40 deg");
+    let (label, v, warn) = tile(s, "full_turn_transmission").expect("full-turn tile");
+    assert!(label.ends_with("full turn"), "{label}");
+    assert_relative_eq!(v, full, epsilon = 0.05 + 1e-9);
+    assert!(warn, "{v} below 40 deg is flagged");
+    // The ranking: the scope in the heading, the full turn in its own column.
+    let ranking = one(doc.root_element(), "table", "ranking");
+    let heads: Vec<String> = ranking
+        .descendants()
+        .filter(|n| n.has_tag_name("th"))
+        .map(text_of)
+        .collect();
+    assert!(
+        heads
+            .iter()
+            .any(|h| h == "min transmission (°), between targets"),
+        "{heads:?}"
+    );
+    assert!(heads.iter().any(|h| h == "full turn (°)"), "{heads:?}");
+    let cell = one(ranking, "tr", "design-row")
+        .children()
+        .find(|c| c.attribute("data-key") == Some("full_turn_transmission"))
+        .unwrap();
+    assert_relative_eq!(
+        text_of(cell).parse::<f64>().unwrap(),
+        full,
+        epsilon = 0.05 + 1e-9
+    );
+    assert!(has_class(&cell, "warn"));
+    // The angle plot labels both, each with its scope.
+    let angles = one(s, "figure", "angles");
+    let labels: Vec<String> = within(angles, "g", "worst-mu")
+        .into_iter()
+        .map(text_of)
+        .collect();
+    assert_eq!(labels.len(), 2, "{labels:?}");
+    assert!(labels[0].ends_with("between targets"), "{labels:?}");
+    assert_eq!(labels[1], format!("worst {full:.1}° over a full turn"));
+    check_direction(s, false);
+    // The drawing at position 1 names the fixed pivots and the joints.
+    let fig = one(s, "figure", "linkage");
+    let mut named: Vec<String> = within(fig, "text", "joint-label")
+        .into_iter()
+        .map(text_of)
+        .collect();
+    named.sort();
+    assert_eq!(named, ["A", "B", "O2", "O4"]);
+}
+
+// The mirror image of the function demo in its ground line runs clockwise (input span -90
+// deg): the header says so and the animation turns the crank clockwise. The mounting angles
+// shown are the summary's, and the precision points' output angles are the ones the
+// linkage reaches there (Freudenstein's construction of `function_case` makes them exact).
+#[test]
+fn function_report_shows_mounting_angles_and_runs_clockwise() {
+    for (summary, designs, ccw) in [
+        {
+            let (s, d) = function_case();
+            (s, d, true)
+        },
+        {
+            let (s, d) = function_case_turning(-30.0, -90.0, -45.0, -40.0);
+            (s, d, false)
+        },
+    ] {
+        let html = render_report(&summary, &designs).unwrap();
+        let doc = parse(&html);
+        check_legends(&doc);
+        let d = &summary.designs[0];
+        let f = summary.scenario.task.function.as_ref().unwrap();
+        let s = one(doc.root_element(), "section", "design");
+        check_direction(s, ccw);
+        let mounting = one(s, "table", "mounting");
+        let shown = |key: &str| -> f64 {
+            let cell = mounting
+                .descendants()
+                .find(|n| n.attribute("data-key") == Some(key))
+                .unwrap_or_else(|| panic!("no {key}"));
+            text_of(cell).trim_end_matches('°').parse().unwrap()
+        };
+        let m = |k: &str| d.measures[k].as_f64().unwrap();
+        assert_relative_eq!(
+            shown("input_start"),
+            m("input_start"),
+            epsilon = 0.005 + 1e-9
+        );
+        assert_relative_eq!(shown("input_end"), m("input_end"), epsilon = 0.005 + 1e-9);
+        assert_relative_eq!(
+            shown("output_start"),
+            m("output_start"),
+            epsilon = 0.005 + 1e-9
+        );
+        assert_relative_eq!(
+            shown("output_end"),
+            m("output_start") + f.output_span,
+            epsilon = 0.005 + 1e-9
+        );
+        // Precision points: x, crank and output from the ground line.
+        let l = &designs[0].linkage;
+        let table = one(s, "table", "at-targets");
+        let heads: Vec<String> = table
+            .descendants()
+            .filter(|n| n.has_tag_name("th"))
+            .map(text_of)
+            .collect();
+        assert_eq!(heads, ["#", "x", "crank (°)", "output (°)"]);
+        let rows: Vec<Node> = table
+            .descendants()
+            .filter(|n| n.has_tag_name("tr") && n.parent().is_some_and(|p| p.has_tag_name("tbody")))
+            .collect();
+        assert_eq!(rows.len(), 3);
+        let xs = d.measures["precision_x"].as_array().unwrap();
+        for ((row, c), x) in rows.iter().zip(&d.crank_angles).zip(xs) {
+            let cell = |key: &str| -> f64 {
+                text_of(
+                    row.children()
+                        .find(|n| n.attribute("data-key") == Some(key))
+                        .unwrap(),
+                )
+                .parse()
+                .unwrap()
+            };
+            assert_relative_eq!(cell("x"), x.as_f64().unwrap(), max_relative = 5e-4);
+            assert_relative_eq!(cell("crank"), *c, epsilon = 0.05 + 1e-9);
+            let pose = crankwright::report::poses_at_cranks(l, &[*c]).unwrap()[0];
+            let reached = (pose.theta4 - l.ground_angle()).to_degrees();
+            let diff = (cell("output") - reached + 180.0).rem_euclid(360.0) - 180.0;
+            assert!(
+                diff.abs() < 0.05 + 1e-6,
+                "output {} vs {reached}",
+                cell("output")
+            );
+        }
+        // No coupler point of its own: no curve, no dot, no dimension row.
+        for fig in ["linkage", "animation"] {
+            let fig = one(s, "figure", fig);
+            assert!(within(fig, "path", "coupler-curve").is_empty(), "{fig:?}");
+            assert!(within(fig, "circle", "coupler-point").is_empty());
+            assert!(!legend_texts(fig).iter().any(|t| t == "coupler curve"));
+        }
+        let caption = one(s, "figure", "linkage")
+            .children()
+            .find(|c| c.has_tag_name("figcaption"))
+            .map(text_of)
+            .unwrap();
+        assert!(!caption.contains("coupler curve"), "{caption}");
+        let dims = one(s, "table", "dimensions");
+        assert!(dims
+            .descendants()
+            .all(|n| n.attribute("data-key") != Some("coupler_point")));
+        // The angle plot names its marks precision points and marks the x range's ends.
+        let angles = one(s, "figure", "angles");
+        let legend = legend_texts(angles);
+        assert!(legend.iter().any(|t| t == "precision point"), "{legend:?}");
+        assert!(!legend.iter().any(|t| t == "target"), "{legend:?}");
+        assert_eq!(within(angles, "g", "range-end").len(), 2);
+        let worst = text_of(within(angles, "g", "worst-mu")[0]);
+        assert!(worst.ends_with("over the x range"), "{worst}");
+        // The crank turns fully (a Grashof crank-rocker): its full turn is shown as well.
+        assert!(l.grashof().input_turns_fully());
+        let (label, _, _) = tile(s, "min_transmission").unwrap();
+        assert!(label.ends_with("over the x range"), "{label}");
+        let (_, v, warn) = tile(s, "full_turn_transmission").expect("full-turn tile");
+        assert_relative_eq!(v, full_turn_quality(l), epsilon = 0.05 + 1e-9);
+        assert_eq!(warn, v < 40.0);
+    }
+}
+
+/// Whether a design of summary.json runs counter-clockwise from its first target to its
+/// last: the sign of its crank-angle progression.
+fn ccw_of(d: &serde_json::Value) -> bool {
+    let c = d["crank_angles"].as_array().unwrap();
+    c[c.len() - 1].as_f64().unwrap() > c[0].as_f64().unwrap()
+}
+
+// End to end on an invented path task whose input may rock (tests/scenarios/
+// label-applicator.yaml): min_transmission is named as taken between the targets, and every
+// design whose crank turns fully (Grashof, crank or ground shortest) also shows its worst
+// transmission over the full turn, equal to the closed form of `full_turn_quality`, in its
+// tile and in the ranking; the others show none. Each design's direction is stated and
+// animated as its crank angles run.
+#[test]
+fn a_rocking_path_run_names_its_transmission_scopes() {
+    let (_tmp, dir, _json, summary, html) =
+        synth_run("tests/scenarios/label-applicator.yaml", PATH_ERRORS);
+    let doc = parse(&html);
+    let designs = load_designs(&dir.join("designs.yaml")).unwrap();
+    let turns: Vec<bool> = designs
+        .iter()
+        .map(|d| d.linkage.grashof().input_turns_fully())
+        .collect();
+    let rows = within(doc.root_element(), "tr", "design-row");
+    for ((row, design), turning) in rows.iter().zip(&designs).zip(&turns) {
+        let cell = row
+            .children()
+            .find(|c| c.attribute("data-key") == Some("full_turn_transmission"));
+        match (turning, cell) {
+            (true, Some(c)) => assert_relative_eq!(
+                text_of(c).parse::<f64>().unwrap(),
+                full_turn_quality(&design.linkage),
+                epsilon = 0.05 + 1e-9
+            ),
+            (false, Some(c)) => assert_eq!(text_of(c), "–"),
+            (_, None) => assert!(!turns.iter().any(|t| *t), "no full-turn column"),
+        }
+    }
+    let sections = within(doc.root_element(), "section", "design");
+    for ((s, d), design) in sections.iter().zip(&summary.designs).zip(&designs) {
+        let (label, _, _) = tile(*s, "min_transmission").unwrap();
+        assert!(label.ends_with("between targets"), "{label}");
+        match tile(*s, "full_turn_transmission") {
+            Some((_, v, warn)) => {
+                assert!(design.linkage.grashof().input_turns_fully());
+                let full = full_turn_quality(&design.linkage);
+                assert_relative_eq!(v, full, epsilon = 0.05 + 1e-9);
+                // Flagged below 40 deg (common practice, no source) or the scenario's 25.
+                assert_eq!(warn, v < 40.0);
+            }
+            None => assert!(!design.linkage.grashof().input_turns_fully()),
+        }
+        let c = &d.crank_angles;
+        check_direction(*s, c[c.len() - 1] > c[0]);
+    }
 }

@@ -5,7 +5,7 @@
 use nalgebra::Point2;
 
 use super::draw::{
-    bounds, curve_layer, footprint, ground_layer, linkage_legend, pivots_layer,
+    bounds, curve_layer, footprint, ground_layer, has_curve, linkage_legend, pivots_layer,
     pose_layer_animated, scene_frame, targets_layer, Joints, PoseAnimation,
 };
 use super::frame::{finish, Map};
@@ -103,9 +103,10 @@ fn moving_layer(map: &Map, seq: &[Joints], times: &[f64], dur: f64) -> String {
 /// One motion of the linkage as an animated SVG (SMIL, no scripts), drawn to scale over the
 /// coupler curve and the numbered targets.
 ///
-/// `poses`: positions over one motion in crank order (e.g.
-/// [`motion_poses`](super::curves::motion_poses)); a crank that turns fully loops round, a
-/// rocking input runs forward and back. The crank moves at constant speed, one cycle every
+/// `poses`: positions over one motion in the order the crank runs through them (e.g.
+/// [`motion_poses`](super::curves::motion_poses), in increasing crank angle, or reversed for
+/// a crank that runs clockwise); a crank that turns fully loops round in that direction, a
+/// rocking input runs forward and back. `curve` may be empty (no coupler curve drawn). The crank moves at constant speed, one cycle every
 /// `duration_s` seconds ([`DEFAULT_DURATION_S`] if that is not positive and finite).
 /// The moving links are one `<g class="linkage-pose">` whose elements carry `<animate>`
 /// children; the first position is the static fallback.
@@ -131,7 +132,12 @@ pub fn animation_svg(
             .chain(targets.iter().copied()),
     )
     .unwrap_or((lo, hi));
-    let (svg, map) = scene_frame(bbox, units, size, &linkage_legend(!targets.is_empty()));
+    let (svg, map) = scene_frame(
+        bbox,
+        units,
+        size,
+        &linkage_legend(has_curve(curve), !targets.is_empty()),
+    );
     let mut layers = String::new();
     layers.push_str(&curve_layer(&map, curve));
     layers.push_str(&ground_layer(&map, linkage, poses));

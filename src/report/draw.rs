@@ -164,8 +164,12 @@ pub(crate) fn arrow(
     )
 }
 
-/// The coupler curve as one `<path>`, a sub-path per branch.
+/// The coupler curve as one `<path>`, a sub-path per branch; nothing when the curve has no
+/// drawable point.
 pub(crate) fn curve_layer(map: &Map, curve: &[Vec<Point2<f64>>]) -> String {
+    if !curve.iter().flatten().any(finite) {
+        return String::new();
+    }
     let mut d = String::new();
     for branch in curve {
         let mut pen_down = false;
@@ -192,31 +196,43 @@ pub(crate) fn curve_layer(map: &Map, curve: &[Vec<Point2<f64>>]) -> String {
 /// hangs below its pivot unless a link or the line of centres leaves the pivot that way in
 /// one of the drawn `poses`; then it turns to the side (or up) where it is least in the way.
 pub(crate) fn ground_layer(map: &Map, linkage: &FourBar, poses: &[Pose]) -> String {
-    let (o2w, o4w) = (linkage.input_pivot(), linkage.output_pivot());
+    let mut s = String::from(r#"<g class="ground">"#);
+    s.push_str(&line(
+        "ground-line",
+        map.p(linkage.input_pivot()),
+        map.p(linkage.output_pivot()),
+        style::MUTED,
+        1.0,
+        &format!(r#" stroke-dasharray="{GROUND_DASH}""#),
+    ));
+    for (pivot, turn) in pivot_symbols(linkage, poses) {
+        let (x, y) = map.p(pivot);
+        s.push_str(&ground_symbol(x, y, turn));
+    }
+    s.push_str("</g>");
+    s
+}
+
+/// Dash pattern of the ground line `O2 - O4` (dash-dot).
+pub(crate) const GROUND_DASH: &str = "14 3 2 3";
+
+/// Each fixed pivot (`O2`, then `O4`) with the quarter turns of its ground symbol (see
+/// [`symbol_turn`]) for the links that leave it in `poses` and the line of centres.
+fn pivot_symbols(linkage: &FourBar, poses: &[Pose]) -> [(Point2<f64>, u8); 2] {
+    let (o2, o4) = (linkage.input_pivot(), linkage.output_pivot());
     let joints: Vec<Joints> = poses
         .iter()
         .map(|p| Joints::of(linkage, p))
         .filter(Joints::finite)
         .collect();
-    let crank_dirs: Vec<_> = joints.iter().map(|j| j.a - o2w).collect();
-    let output_dirs: Vec<_> = joints.iter().map(|j| j.b - o4w).collect();
-    let o2 = map.p(o2w);
-    let o4 = map.p(o4w);
-    let mut s = String::from(r#"<g class="ground">"#);
-    s.push_str(&line(
-        "ground-line",
-        o2,
-        o4,
-        style::MUTED,
-        1.0,
-        r#" stroke-dasharray="14 3 2 3""#,
-    ));
-    for ((x, y), mut dirs, centres) in [(o2, crank_dirs, o4w - o2w), (o4, output_dirs, o2w - o4w)] {
-        dirs.push(centres);
-        s.push_str(&ground_symbol(x, y, symbol_turn(&dirs)));
-    }
-    s.push_str("</g>");
-    s
+    let mut crank_dirs: Vec<_> = joints.iter().map(|j| j.a - o2).collect();
+    crank_dirs.push(o4 - o2);
+    let mut output_dirs: Vec<_> = joints.iter().map(|j| j.b - o4).collect();
+    output_dirs.push(o2 - o4);
+    [
+        (o2, symbol_turn(&crank_dirs)),
+        (o4, symbol_turn(&output_dirs)),
+    ]
 }
 
 /// Quarter turns (0: hanging down, 1: pointing right, 2: up, 3: left; counter-clockwise
@@ -411,15 +427,18 @@ pub(crate) fn pose_layer_animated(
         );
         s.push_str(&with_body(ring, body));
     }
-    let dot = format!(
-        r#"<circle class="coupler-point" cx="{}" cy="{}" r="{}" fill="{}" stroke="{}" stroke-width="1"/>"#,
-        num(c.0),
-        num(c.1),
-        num(COUPLER_POINT_R),
-        style::CURVE.hex(),
-        style::PAPER.hex()
-    );
-    s.push_str(&with_body(dot, &anim.point));
+    // A coupler point on joint A (p = q = 0, as in function generation) is A itself.
+    if j.c != j.a {
+        let dot = format!(
+            r#"<circle class="coupler-point" cx="{}" cy="{}" r="{}" fill="{}" stroke="{}" stroke-width="1"/>"#,
+            num(c.0),
+            num(c.1),
+            num(COUPLER_POINT_R),
+            style::CURVE.hex(),
+            style::PAPER.hex()
+        );
+        s.push_str(&with_body(dot, &anim.point));
+    }
     s.push_str("</g>");
     s
 }
@@ -516,14 +535,31 @@ pub(crate) fn targets_layer(map: &Map, targets: &[Point2<f64>]) -> String {
     s
 }
 
-/// The legend of a linkage drawing; the target entry only when there are targets.
-pub(crate) fn linkage_legend(with_targets: bool) -> Legend {
-    let mut l = Legend::new(&[
+/// The links and the ground line: the first entries of every drawing's legend.
+fn links_legend() -> Legend {
+    Legend::new(&[
         (Swatch::Line(style::CRANK, LINK_WIDTH, None), "crank"),
         (Swatch::Plate, "coupler"),
         (Swatch::Line(style::OUTPUT, LINK_WIDTH, None), "output link"),
-        (Swatch::Line(style::CURVE, 1.6, None), "coupler curve"),
-    ]);
+        (
+            Swatch::Line(style::MUTED, 1.0, Some(GROUND_DASH)),
+            "ground line O2–O4",
+        ),
+    ])
+}
+
+/// Whether a coupler curve has a point to draw.
+pub(crate) fn has_curve(curve: &[Vec<Point2<f64>>]) -> bool {
+    curve.iter().flatten().any(finite)
+}
+
+/// The legend of a linkage drawing: the coupler curve entry only when a curve is drawn, the
+/// target entry only when there are targets.
+pub(crate) fn linkage_legend(with_curve: bool, with_targets: bool) -> Legend {
+    let mut l = links_legend();
+    if with_curve {
+        l.push(Swatch::Line(style::CURVE, 1.6, None), "coupler curve");
+    }
     if with_targets {
         l.push(Swatch::Reticle, "target");
     }
@@ -562,7 +598,7 @@ pub fn linkage_figure(
             .chain(reached.iter().copied()),
     )
     .unwrap_or((lo, hi));
-    let legend = linkage_legend(!targets.is_empty());
+    let legend = linkage_legend(has_curve(curve), !targets.is_empty());
     let (svg, map) = scene_frame(bbox, units, size, &legend);
     let mut layers = String::new();
     layers.push_str(&curve_layer(&map, curve));
@@ -571,7 +607,170 @@ pub fn linkage_figure(
     layers.push_str(&pivots_layer(&map, linkage));
     layers.push_str(&errors_layer(&map, targets, reached));
     layers.push_str(&targets_layer(&map, targets));
+    // Labels keep clear of the targets, their numbers (up and right of each) and the
+    // reached points.
+    let avoid: Vec<(f64, f64)> = targets
+        .iter()
+        .chain(reached)
+        .filter(|p| finite(p))
+        .flat_map(|p| {
+            let (x, y) = map.p(*p);
+            [(x, y), (x + 1.2 * TARGET_R + 4.0, y - 1.2 * TARGET_R - 4.0)]
+        })
+        .collect();
+    layers.push_str(&joint_labels(&map, linkage, poses, &avoid));
     finish(svg, &layers)
+}
+
+/// Distance beyond which a point to avoid no longer steers a label, pixels.
+const LABEL_REACH: f64 = 48.0;
+
+/// The labels `O2` and `O4` at the fixed pivots and `A` and `B` at the moving joints of the
+/// first of `poses` (the solid one), as `<g class="joint-labels">` of `<text
+/// class="joint-label" data-point="...">`. Each label sits just beside its point in the
+/// widest free angle between the lines that leave the point (at a pivot the links of every
+/// drawn pose, the line of centres and the ground symbol; at a joint the links and coupler
+/// plate edges of the first pose) and the points of `avoid` (and the labels already placed)
+/// within [`LABEL_REACH`], so that it sits on no line. Nothing without a drawable pose.
+pub(crate) fn joint_labels(
+    map: &Map,
+    linkage: &FourBar,
+    poses: &[Pose],
+    avoid: &[(f64, f64)],
+) -> String {
+    let Some(first) = poses
+        .iter()
+        .map(|p| Joints::of(linkage, p))
+        .find(Joints::finite)
+    else {
+        return String::new();
+    };
+    let all: Vec<Joints> = poses
+        .iter()
+        .map(|p| Joints::of(linkage, p))
+        .filter(Joints::finite)
+        .collect();
+    // Page directions of a ground symbol: its middle and its two flanks.
+    let symbol = |turn: u8| {
+        let a = -std::f64::consts::FRAC_PI_2 * f64::from(turn);
+        [-0.55, 0.0, 0.55].map(|d: f64| {
+            let t = a + d;
+            // Turn 0 hangs down the page (+y); each turn is a quarter counter-clockwise.
+            (-t.sin(), t.cos())
+        })
+    };
+    let [(_, turn2), (_, turn4)] = pivot_symbols(linkage, poses);
+    let px = |p: Point2<f64>| map.p(p);
+    let towards = |from: (f64, f64), to: (f64, f64)| (to.0 - from.0, to.1 - from.1);
+    let (o2, o4, a, b, c) = (
+        px(first.o2),
+        px(first.o4),
+        px(first.a),
+        px(first.b),
+        px(first.c),
+    );
+    let mut d2: Vec<(f64, f64)> = all.iter().map(|j| towards(o2, px(j.a))).collect();
+    d2.push(towards(o2, o4));
+    d2.extend(symbol(turn2));
+    let mut d4: Vec<(f64, f64)> = all.iter().map(|j| towards(o4, px(j.b))).collect();
+    d4.push(towards(o4, o2));
+    d4.extend(symbol(turn4));
+    // Each point: its name, where it is, the directions its lines leave it, its radius.
+    let points = [
+        ("O2", o2, d2, style::PIVOT_R),
+        ("O4", o4, d4, style::PIVOT_R),
+        (
+            "A",
+            a,
+            vec![towards(a, o2), towards(a, b), towards(a, c)],
+            JOINT_R,
+        ),
+        (
+            "B",
+            b,
+            vec![towards(b, a), towards(b, o4), towards(b, c)],
+            JOINT_R,
+        ),
+    ];
+    // Every line drawn solid near the points (position 1's links and plate edges, the
+    // ground line) as points every few pixels: a line passing close by blocks a label too.
+    let segments = [(o2, a), (a, b), (b, o4), (a, c), (b, c), (o2, o4)];
+    let along: Vec<(f64, f64)> = segments
+        .iter()
+        .flat_map(|(p, q)| {
+            let n = (dist_px(*p, *q) / 5.0).ceil().clamp(1.0, 400.0) as usize;
+            (0..=n).map(move |k| {
+                let t = k as f64 / n as f64;
+                (p.0 + t * (q.0 - p.0), p.1 + t * (q.1 - p.1))
+            })
+        })
+        .collect();
+    let mut placed: Vec<(f64, f64)> = Vec::new();
+    let mut s = String::from(r#"<g class="joint-labels">"#);
+    for (name, at, mut dirs, radius) in points {
+        for q in along.iter().chain(avoid).chain(&placed) {
+            let d = towards(at, *q);
+            if d.0.hypot(d.1) < LABEL_REACH {
+                dirs.push(d);
+            }
+        }
+        let (ux, uy) = widest_gap(&dirs);
+        // Half extents of the label's box; its support along (ux, uy) plus a clearance.
+        let (hw, hh) = (0.5 * style::text_width(name, FONT_TICK), 0.36 * FONT_TICK);
+        let reach = radius + 3.0 + hw * ux.abs() + hh * uy.abs();
+        let centre = (at.0 + reach * ux, at.1 + reach * uy);
+        placed.push(centre);
+        let t = style::halo_text(
+            centre.0,
+            centre.1 + 0.36 * FONT_TICK,
+            FONT_TICK,
+            "middle",
+            style::INK,
+            name,
+        );
+        s.push_str(&t.replacen(
+            "<text ",
+            &format!(r#"<text class="joint-label" data-point="{name}" "#),
+            1,
+        ));
+    }
+    s.push_str("</g>");
+    s
+}
+
+/// Distance between two pixel positions.
+fn dist_px(p: (f64, f64), q: (f64, f64)) -> f64 {
+    (p.0 - q.0).hypot(p.1 - q.1)
+}
+
+/// The unit page direction halfway across the widest angle between the directions `dirs`
+/// (zero vectors ignored); up and to the right when there are none.
+fn widest_gap(dirs: &[(f64, f64)]) -> (f64, f64) {
+    let mut angles: Vec<f64> = dirs
+        .iter()
+        .filter(|(x, y)| x.hypot(*y) > 1e-9 && x.is_finite() && y.is_finite())
+        .map(|(x, y)| y.atan2(*x))
+        .collect();
+    angles.sort_by(f64::total_cmp);
+    let best = match angles.as_slice() {
+        [] => -std::f64::consts::FRAC_PI_4,
+        [only] => only + std::f64::consts::PI,
+        _ => {
+            let tau = std::f64::consts::TAU;
+            let n = angles.len();
+            (0..n)
+                .map(|i| {
+                    let (from, to) = (
+                        angles[i],
+                        angles[(i + 1) % n] + if i + 1 == n { tau } else { 0.0 },
+                    );
+                    (to - from, from + 0.5 * (to - from))
+                })
+                .max_by(|p, q| p.0.total_cmp(&q.0))
+                .map_or(0.0, |(_, mid)| mid)
+        }
+    };
+    (best.cos(), best.sin())
 }
 
 /// A frame triad: x axis arrow of [`TRIAD_LEN`] pixels and a shorter y axis arrow.
@@ -602,18 +801,19 @@ pub(crate) fn triad(
     )
 }
 
-/// The legend of the motion-generation drawings.
-fn motion_legend() -> Legend {
-    Legend::new(&[
-        (Swatch::Line(style::CRANK, LINK_WIDTH, None), "crank"),
-        (Swatch::Plate, "coupler"),
-        (Swatch::Line(style::OUTPUT, LINK_WIDTH, None), "output link"),
-        (Swatch::Line(style::COUPLER, 1.6, None), "coupler frame"),
-        (
-            Swatch::Line(style::TARGET, 1.6, Some("4 2.5")),
-            "target frame",
-        ),
-    ])
+/// The legend of the motion-generation drawings: the coupler curve entry only when a curve
+/// is drawn.
+fn motion_legend(with_curve: bool) -> Legend {
+    let mut l = links_legend();
+    if with_curve {
+        l.push(Swatch::Line(style::CURVE, 1.6, None), "coupler curve");
+    }
+    l.push(Swatch::Line(style::COUPLER, 1.6, None), "coupler frame");
+    l.push(
+        Swatch::Line(style::TARGET, 1.6, Some("4 2.5")),
+        "target frame",
+    );
+    l
 }
 
 /// Motion generation: the linkage to scale at each of `poses` (first solid, others faded)
@@ -644,8 +844,18 @@ pub fn motion_figure(
             .chain(origins.iter().copied()),
     )
     .unwrap_or((lo, hi));
-    let (svg, map) = scene_frame(bbox, units, size, &motion_legend());
-    let layers = motion_layers(&map, linkage, poses, curve, targets, frame_angle);
+    let (svg, map) = scene_frame(bbox, units, size, &motion_legend(has_curve(curve)));
+    let mut layers = motion_layers(&map, linkage, poses, curve, targets, frame_angle);
+    // Labels keep clear of the target frames' origins and numbers (down and left of each).
+    let avoid: Vec<(f64, f64)> = origins
+        .iter()
+        .filter(|p| finite(p))
+        .flat_map(|p| {
+            let (x, y) = map.p(*p);
+            [(x, y), (x - TARGET_R - 3.0, y + TARGET_R + 0.5 * FONT_TICK)]
+        })
+        .collect();
+    layers.push_str(&joint_labels(&map, linkage, poses, &avoid));
     finish(svg, &layers)
 }
 
@@ -669,7 +879,7 @@ pub fn motion_closeup(
             .map(|p| linkage.coupler_point_at(p.theta2, p.theta3)),
     );
     let (lo, hi) = bounds(points).unwrap_or_else(|| footprint(linkage, poses));
-    let legend = motion_legend();
+    let legend = motion_legend(has_curve(curve));
     // Room for the frame triads, which are longer than the drawing's usual padding: widen
     // the box by their length at the scale it gets (once more after widening, as the scale
     // shrinks a little).
@@ -786,6 +996,14 @@ mod tests {
         assert_relative_eq!(hi.y, -4.0 + 4.2, epsilon = 1e-12);
     }
 
+    /// The group of the solid position 1 of a drawing.
+    fn position_one<'a, 'i>(doc: &'a roxmltree::Document<'i>) -> roxmltree::Node<'a, 'i> {
+        by_class(doc, "g", "linkage-pose")
+            .into_iter()
+            .find(|g| g.attribute("data-pose") == Some("1"))
+            .expect("position 1")
+    }
+
     fn figure(l: &FourBar, poses: &[Pose], targets: &[Point2<f64>]) -> String {
         let sw = sweep(l, 2f64.to_radians(), &SweepOptions::default());
         let curve = curve_branches(l, &sw);
@@ -842,10 +1060,7 @@ mod tests {
         let poses = closed_poses(&l, &[0.0, 75.0, 150.0, 225.0, 300.0]);
         let svg = figure(&l, &poses, &[]);
         let doc = parse(&svg);
-        let first = by_class(&doc, "g", "linkage-pose")
-            .into_iter()
-            .find(|g| g.attribute("data-pose") == Some("1"))
-            .expect("position 1");
+        let first = position_one(&doc);
         let (o2, _) = ends(&child(&first, "line", "crank"));
         let (o4, _) = ends(&child(&first, "line", "output"));
         let s = dist(o2, o4) / l.ground();
@@ -868,6 +1083,104 @@ mod tests {
             let d = l.coupler_point_at(p.theta2, p.theta3) - l.input_pivot();
             assert_relative_eq!(attr(&c, "cx"), o2.0 + s * d.x, epsilon = 0.02);
             assert_relative_eq!(attr(&c, "cy"), o2.1 - s * d.y, epsilon = 0.02);
+        }
+    }
+
+    /// Distance from pixel `p` to the segment `a-b`.
+    fn to_segment(p: (f64, f64), (a, b): ((f64, f64), (f64, f64))) -> f64 {
+        let (dx, dy) = (b.0 - a.0, b.1 - a.1);
+        let len2 = dx * dx + dy * dy;
+        let t = if len2 > 0.0 {
+            (((p.0 - a.0) * dx + (p.1 - a.1) * dy) / len2).clamp(0.0, 1.0)
+        } else {
+            0.0
+        };
+        dist(p, (a.0 + t * dx, a.1 + t * dy))
+    }
+
+    // The labels O2, O4, A and B sit beside their points (position 1) and off every line
+    // that leaves them: the links of position 1 and the ground line.
+    #[test]
+    fn pivots_and_joints_are_labelled_off_the_lines() {
+        let l = crank_rocker();
+        for cranks in [
+            [10.0, 100.0, 190.0],
+            [200.0, 250.0, 300.0],
+            [95.0, 0.0, 270.0],
+        ] {
+            let poses = closed_poses(&l, &cranks);
+            let svg = figure(&l, &poses, &[]);
+            let doc = parse(&svg);
+            let first = position_one(&doc);
+            let (o2, a) = ends(&child(&first, "line", "crank"));
+            let (o4, b) = ends(&child(&first, "line", "output"));
+            let segments = [(o2, a), (o4, b), (a, b), (o2, o4)];
+            let labels = by_class(&doc, "text", "joint-label");
+            assert_eq!(labels.len(), 4);
+            for t in labels {
+                let name = t.attribute("data-point").unwrap();
+                assert_eq!(t.text(), Some(name));
+                let at = match name {
+                    "O2" => o2,
+                    "O4" => o4,
+                    "A" => a,
+                    "B" => b,
+                    other => panic!("label {other}"),
+                };
+                // The middle of the text (baseline 0.36 of the font size below it).
+                let centre = (attr(&t, "x"), attr(&t, "y") - 0.36 * FONT_TICK);
+                let d = dist(centre, at);
+                assert!((8.0..30.0).contains(&d), "{name} {d} px from its point");
+                for seg in segments {
+                    assert!(
+                        to_segment(centre, seg) > 5.0,
+                        "{name} at {centre:?} on a line {seg:?} (cranks {cranks:?})"
+                    );
+                }
+            }
+        }
+    }
+
+    // No curve given: no coupler-curve element and no legend entry for it; a coupler point
+    // on joint A (p = q = 0) is A itself, so no separate dot either. The ground line is
+    // drawn and named in the legend.
+    #[test]
+    fn nothing_drawn_for_an_absent_coupler_curve_or_point() {
+        let l = FourBar::on_x_axis([7.0, 2.0, 9.0, 6.0], crate::linkage::Assembly::Open).unwrap();
+        let poses = closed_poses(&l, &[20.0, 80.0]);
+        let svg = linkage_figure(&l, &poses, &[], &[], &[], "mm", (600, 450));
+        let doc = parse(&svg);
+        assert!(by_class(&doc, "path", "coupler-curve").is_empty());
+        assert!(by_class(&doc, "circle", "coupler-point").is_empty());
+        let legend: Vec<&str> = by_class(&doc, "g", "legend")[0]
+            .descendants()
+            .filter_map(|n| n.text())
+            .collect();
+        assert!(!legend.contains(&"coupler curve"), "{legend:?}");
+        assert!(legend.contains(&"ground line O2–O4"), "{legend:?}");
+        assert_eq!(by_class(&doc, "line", "ground-line").len(), 1);
+        // With a curve, both are named.
+        let l = crank_rocker();
+        let poses = closed_poses(&l, &[20.0]);
+        for svg in [
+            figure(&l, &poses, &[]),
+            motion_figure(
+                &l,
+                &poses,
+                &curve_branches(&l, &sweep(&l, 0.1, &SweepOptions::default())),
+                &[],
+                0.0,
+                "mm",
+                (600, 450),
+            ),
+        ] {
+            let doc = parse(&svg);
+            assert_eq!(by_class(&doc, "path", "coupler-curve").len(), 1);
+            let legend: Vec<&str> = by_class(&doc, "g", "legend")[0]
+                .descendants()
+                .filter_map(|n| n.text())
+                .collect();
+            assert!(legend.contains(&"coupler curve"), "{legend:?}");
         }
     }
 
@@ -953,10 +1266,7 @@ mod tests {
         let whole = motion_figure(&l, &poses, &[], &targets, 0.2, "mm", (640, 480));
         let crank_px = |svg: &str| {
             let doc = parse(svg);
-            let g = by_class(&doc, "g", "linkage-pose")
-                .into_iter()
-                .find(|g| g.attribute("data-pose") == Some("1"))
-                .expect("pose 1");
+            let g = position_one(&doc);
             let (p, q) = ends(&child(&g, "line", "crank"));
             dist(p, q)
         };

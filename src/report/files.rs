@@ -163,8 +163,9 @@ pub(crate) fn check_pairing(summary: &Summary, designs: &[Design]) -> Result<(),
 
 /// Writes `report.html` and, for every ranked design, `design-N.svg` (the linkage at its
 /// first target, 1 SVG user unit = 1 scenario unit, see [`cad_svg`]) and `design-N-curve.csv`
-/// (its working motion every [`MOTION_STEP_DEG`](super::MOTION_STEP_DEG) of crank,
-/// see [`csv_curve`]) into `dir`, each file atomically. `N` is the rank.
+/// (its whole motion, a full turn or toggle to toggle, every
+/// [`MOTION_STEP_DEG`](super::MOTION_STEP_DEG) of crank, see [`csv_curve`]) into `dir`, each
+/// file atomically. `N` is the rank.
 ///
 /// # Errors
 /// [`ReportError::Count`] or [`ReportError::Mismatch`] when `designs` are not those of

@@ -18,14 +18,21 @@ use nalgebra::Point2;
 use super::animate::animation_svg;
 use super::draw::{
     ground_symbol, linkage_figure, motion_closeup, motion_figure, pivot_circle, triad, FramePose,
+    GROUND_DASH,
 };
 use super::files::{cad_file, check_pairing, curve_file, ReportError};
 use super::legend::{swatch_icon, Swatch};
-use super::plots::{angle_plot_over, error_plot, function_plot, MU_BAND_HIGH, MU_BAND_LOW};
-use super::study::{drawn_cranks, measure, study_all, FunctionView, Study, MOTION_STEP_DEG};
+use super::plots::{
+    angle_plot_over, error_plot, function_plot, AngleMarks, MuScope, MU_BAND_HIGH, MU_BAND_LOW,
+    RANGE_END_DASH,
+};
+use super::study::{
+    desired_function, drawn_cranks, measure, study_all, FunctionView, Study, MOTION_STEP_DEG,
+};
 use super::style::{self, esc, LINK_WIDTH};
 use crate::design::Design;
 use crate::kinematics::position::Pose;
+use crate::linkage::GrashofClass;
 use crate::scenario::{CrankRequirement, FunctionFile, ScenarioFile, TimingFile};
 use crate::synthesis::output::{DesignSummary, Summary};
 use crate::SAFETY_NOTE;
@@ -316,6 +323,79 @@ fn target_frames(s: &ScenarioFile) -> Vec<FramePose> {
                 .collect()
         })
         .unwrap_or_default()
+}
+
+/// The scope of the run's `min_transmission`: the whole turn when the scenario requires the
+/// crank to turn fully, else the working motion (between targets, or over the x range).
+fn mu_scope(s: &Summary) -> MuScope {
+    if s.scenario.limits.crank.unwrap_or_default() == CrankRequirement::FullTurn {
+        MuScope::FullTurn
+    } else if s.task == "function" {
+        MuScope::XRange
+    } else {
+        MuScope::BetweenTargets
+    }
+}
+
+/// Transmission quality below which a value is flagged, degrees: [`MU_GOOD`] or the
+/// scenario's limit, whichever is higher.
+fn mu_flag(s: &Summary) -> f64 {
+    s.scenario
+        .limits
+        .min_transmission
+        .filter(|v| v.is_finite())
+        .map_or(MU_GOOD, |v| v.max(MU_GOOD))
+}
+
+/// Whether the crank runs counter-clockwise (`Some(true)`) or clockwise from the first
+/// target to the last: the sign of the crank-angle progression, for function generation
+/// the sign of the input span. `None` when that is unknown.
+fn runs_ccw(s: &Summary, d: &DesignSummary) -> Option<bool> {
+    let step = match &s.scenario.task.function {
+        Some(f) => f.input_span,
+        None => match d.crank_angles.as_slice() {
+            [first, .., last] => last - first,
+            _ => f64::NAN,
+        },
+    };
+    (step.is_finite() && step != 0.0).then_some(step > 0.0)
+}
+
+/// The direction of the crank in words (`counter-clockwise`, `clockwise`) and the stretch
+/// it is taken over (`from target 1 to target 5`, `from x0 to xf`).
+fn direction_text(s: &Summary, d: &DesignSummary) -> Option<(&'static str, String)> {
+    let ccw = runs_ccw(s, d)?;
+    let span = if s.task == "function" {
+        "from x0 to xf".to_owned()
+    } else {
+        format!("from target 1 to target {}", d.crank_angles.len())
+    };
+    Some((
+        if ccw {
+            "counter-clockwise"
+        } else {
+            "clockwise"
+        },
+        span,
+    ))
+}
+
+/// Whether the output link rocks (cannot turn fully): Grashof crank-rocker and
+/// double-rocker, and every non-Grashof linkage.
+fn output_rocks(l: &crate::FourBar) -> bool {
+    matches!(
+        l.grashof(),
+        GrashofClass::CrankRocker | GrashofClass::DoubleRocker | GrashofClass::TripleRocker
+    )
+}
+
+/// The whole motion a design's figures cover, in words.
+fn whole_motion(st: &Study) -> &'static str {
+    if st.full_turn {
+        "a full turn of the crank"
+    } else {
+        "the whole motion (toggle to toggle)"
+    }
 }
 
 /// The page of `summary` and its `designs` (the same designs, in rank order, as
@@ -669,10 +749,16 @@ fn ranking(h: &mut String, s: &Summary, studies: &[Study]) {
     // precision-point error).
     cols.retain(|c| s.designs.iter().any(|d| measure(d, c.key).is_some()));
     let u = esc(&s.units);
+    let scope = mu_scope(s);
+    let flag = mu_flag(s);
+    // The worst over the full turn as well, when the number is taken over less and some
+    // design's crank turns fully.
+    let turn_column = scope != MuScope::FullTurn && studies.iter().any(|st| st.full_turn);
     let _ = write!(
         h,
-        "<div class=\"panel\"><table class=\"ranking\"><caption>{} Min transmission: the worst min(μ, 180° − μ) over the working motion; \
-         amber below {MU_GOOD}° (common practice). Footprint: the box holding both pivots and every joint over the whole motion.</caption>\
+        "<div class=\"panel\"><table class=\"ranking\"><caption>{} Min transmission: the worst min(μ, 180° − μ) {}{}{}; \
+         amber below {}° ({}). Footprint: the box holding both fixed pivots and the paths of joints A and B{} \
+         over the whole motion (a full turn, or toggle to toggle).</caption>\
          <thead><tr><th class=\"num\">rank</th>",
         match s.task.as_str() {
             "motion" => "Errors: distances from the coupler point (the frame origin) to the target poses, and angles of the \
@@ -682,15 +768,43 @@ fn ranking(h: &mut String, s: &Summary, studies: &[Study]) {
             }
             "function" => "Errors: the output angle against the desired output, over the range of x.",
             _ => "Errors: distances from the coupler point to the targets.",
-        }
+        },
+        scope.words(),
+        match scope {
+            MuScope::FullTurn => " (the scenario requires the crank to turn fully)",
+            MuScope::XRange => " (the working motion)",
+            MuScope::BetweenTargets => " (the working motion, from the first target to the last)",
+        },
+        if turn_column {
+            "; full turn: the same over a full turn, for designs whose crank turns fully"
+        } else {
+            ""
+        },
+        given(flag),
+        if flag > MU_GOOD {
+            "the scenario's limit"
+        } else {
+            "common practice"
+        },
+        if s.task == "function" {
+            ""
+        } else {
+            " and of the coupler point"
+        },
     );
     for c in &cols {
         let _ = write!(h, "<th class=\"num\">{}</th>", c.head);
     }
     let _ = write!(
         h,
-        "<th>Grashof class</th><th class=\"num\">min transmission (°)</th>\
-         <th class=\"num\">longest / shortest</th><th class=\"num\">footprint W × H ({u})</th></tr></thead><tbody>"
+        "<th>Grashof class</th><th class=\"num\">min transmission (°), {}</th>{}\
+         <th class=\"num\">longest / shortest</th><th class=\"num\">footprint W × H ({u})</th></tr></thead><tbody>",
+        scope.short(),
+        if turn_column {
+            "<th class=\"num\">full turn (°)</th>"
+        } else {
+            ""
+        }
     );
     for (i, (d, st)) in s.designs.iter().zip(studies).enumerate() {
         let full = i < FULL_DESIGNS;
@@ -710,14 +824,19 @@ fn ranking(h: &mut String, s: &Summary, studies: &[Study]) {
             h.push_str(&num_cell(c.key, &sig(v, DIGITS), false));
         }
         let (w, ht) = st.footprint_size();
+        let turn_cell = match (turn_column, st.full_turn_mu) {
+            (false, _) => String::new(),
+            (true, Some(v)) => num_cell("full_turn_transmission", &angle(v), v < flag),
+            (true, None) => num_cell("full_turn_transmission", "–", false),
+        };
         let _ = write!(
             h,
-            "<td class=\"class\" data-key=\"grashof\">{}</td>{}{}{}</tr>",
+            "<td class=\"class\" data-key=\"grashof\">{}</td>{}{turn_cell}{}{}</tr>",
             esc(&d.grashof),
             num_cell(
                 "min_transmission",
                 &angle(d.min_transmission),
-                d.min_transmission < MU_GOOD
+                d.min_transmission < flag
             ),
             num_cell("length_ratio", &format!("{:.2}", d.length_ratio), false),
             num_cell(
@@ -746,11 +865,15 @@ fn figure_key(h: &mut String, task: &str, precision_points: bool) {
         ),
         (
             swatch_icon(Swatch::Plate),
-            "coupler: the plate through joints A, B and the coupler point",
+            if task == "function" {
+                "coupler: the link from joint A to joint B"
+            } else {
+                "coupler: the plate through joints A, B and the coupler point"
+            },
         ),
         (
             swatch_icon(Swatch::Line(style::OUTPUT, LINK_WIDTH, None)),
-            "output link (rocker)",
+            "output link",
         ),
         (
             icon(
@@ -761,11 +884,15 @@ fn figure_key(h: &mut String, task: &str, precision_points: bool) {
             "fixed pivot on the frame (O2 input, O4 output)",
         ),
         (
-            swatch_icon(Swatch::Line(style::CURVE, 1.6, None)),
-            "coupler curve over the whole working motion",
+            swatch_icon(Swatch::Line(style::MUTED, 1.0, Some(GROUND_DASH))),
+            "ground line O2–O4 between the fixed pivots",
         ),
     ];
     if task != "function" {
+        items.push((
+            swatch_icon(Swatch::Line(style::CURVE, 1.6, None)),
+            "coupler curve over the whole motion (a full turn, or toggle to toggle)",
+        ));
         items.push((
             swatch_icon(Swatch::Reticle),
             "target, numbered in running order",
@@ -792,7 +919,11 @@ fn figure_key(h: &mut String, task: &str, precision_points: bool) {
                 r#" opacity="0.28" stroke-linecap="round""#,
             ),
         ),
-        "faded: the linkage at the other targets",
+        match (task, precision_points) {
+            ("function", true) => "faded: the linkage at the other precision points",
+            ("function", false) => "faded: the linkage at the other end of the x range",
+            _ => "faded: the linkage at the other targets",
+        },
     ));
     if task == "motion" {
         items.push((
@@ -832,6 +963,10 @@ fn figure_key(h: &mut String, task: &str, precision_points: bool) {
         if precision_points {
             items.push((swatch_icon(Swatch::Ring(style::TARGET)), "precision point"));
         }
+        items.push((
+            swatch_icon(Swatch::Line(style::INK, 1.0, Some(RANGE_END_DASH))),
+            "x0, xf: the ends of the x range on the angle plot",
+        ));
     }
     h.push_str(
         "<div class=\"panel figure-key\"><h3>Reading the figures</h3><ul class=\"key-list\">",
@@ -847,17 +982,28 @@ fn design_section(h: &mut String, s: &Summary, d: &DesignSummary, design: &Desig
     let l = &design.linkage;
     let units = &s.units;
     let u = esc(units);
+    let function = s.task == "function";
+    let direction = direction_text(s, d);
     let motion_text = crank_motion_text(st);
     let _ = writeln!(
         h,
         "<section class=\"design\" id=\"design-{r}\" data-rank=\"{r}\">\n<header class=\"design-head\"><div class=\"badge\">#{r}</div>\
-         <div><h2>Design {r}</h2><p class=\"sub\">{} · {} assembly · {}</p></div></header>",
+         <div><h2>Design {r}</h2><p class=\"sub\">{} · {} assembly · {}{}</p></div></header>",
         esc(&d.grashof),
         l.assembly().name(),
         esc(&motion_text),
+        direction
+            .as_ref()
+            .map(|(way, span)| format!(
+                " · <span class=\"direction\">crank runs {way} {}</span>",
+                esc(span)
+            ))
+            .unwrap_or_default(),
         r = d.rank
     );
     // Headline figures.
+    let scope = mu_scope(s);
+    let flag = mu_flag(s);
     h.push_str("<div class=\"stats\">");
     for c in error_columns(&s.task, units) {
         if let (Some(label), Some(v)) = (c.stat, measure(d, c.key)) {
@@ -867,11 +1013,21 @@ fn design_section(h: &mut String, s: &Summary, d: &DesignSummary, design: &Desig
     stat(
         h,
         "min_transmission",
-        "min transmission",
+        &format!("min transmission, {}", scope.short()),
         &angle(d.min_transmission),
         "°",
-        d.min_transmission < MU_GOOD,
+        d.min_transmission < flag,
     );
+    if let (true, Some(v)) = (scope != MuScope::FullTurn, st.full_turn_mu) {
+        stat(
+            h,
+            "full_turn_transmission",
+            "min transmission, full turn",
+            &angle(v),
+            "°",
+            v < flag,
+        );
+    }
     stat(
         h,
         "length_ratio",
@@ -898,20 +1054,14 @@ fn design_section(h: &mut String, s: &Summary, d: &DesignSummary, design: &Desig
     let motion = s.task == "motion";
     let frames = target_frames(&s.scenario);
     let frame_angle = measure(d, "frame_angle").unwrap_or(0.0).to_radians();
+    // A function generator has no coupler point of its own (it sits on joint A): no curve.
+    let curve: &[Vec<Point2<f64>>] = if function { &[] } else { &st.curve };
     // Motion generation draws the coupler frame at each position against the target poses
     // (dashed, numbered), which stand in for the target markers.
     let fig = if motion {
-        motion_figure(
-            l,
-            poses,
-            &st.curve,
-            &frames,
-            frame_angle,
-            units,
-            LINKAGE_SIZE,
-        )
+        motion_figure(l, poses, curve, &frames, frame_angle, units, LINKAGE_SIZE)
     } else {
-        linkage_figure(l, poses, &st.curve, &targets, &reached, units, LINKAGE_SIZE)
+        linkage_figure(l, poses, curve, &targets, &reached, units, LINKAGE_SIZE)
     };
     let n = poses.len();
     let what = match s.task.as_str() {
@@ -922,8 +1072,13 @@ fn design_section(h: &mut String, s: &Summary, d: &DesignSummary, design: &Desig
     let _ = write!(
         h,
         "<div class=\"sheet\"><figure class=\"linkage\">{fig}<figcaption><b>Drawn to scale at the {n} {what} position{}</b> \
-         (position 1 solid, the others faded) with the coupler curve of the whole working motion{}.</figcaption></figure>\n<div class=\"panel card\">",
+         (position 1 solid and labelled: fixed pivots O2, O4 and joints A, B; the others faded){}{}.</figcaption></figure>\n<div class=\"panel card\">",
         if n == 1 { "" } else { "s" },
+        if function {
+            String::new()
+        } else {
+            format!(" with the coupler curve of {}", whole_motion(st))
+        },
         if motion {
             format!(
                 ". The coupler frame (solid axes, at the coupler point, turned {}° from the coupler line A→B) \
@@ -936,8 +1091,12 @@ fn design_section(h: &mut String, s: &Summary, d: &DesignSummary, design: &Desig
             "; red: the targets and the error from the reached coupler point to each".to_owned()
         }
     );
-    dimension_card(h, l, &u);
-    target_card(h, s, d, st, &targets, &reached);
+    dimension_card(h, s, d, l, &u);
+    if function {
+        function_card(h, s, d);
+    } else {
+        target_card(h, s, d, st, &targets, &reached);
+    }
     h.push_str("</div></div>\n");
 
     // Plots, the task's own figure and the animation.
@@ -955,23 +1114,64 @@ fn design_section(h: &mut String, s: &Summary, d: &DesignSummary, design: &Desig
         _ => None,
     };
     let drawn = drawn_cranks(d);
-    let angles = angle_plot_over(&st.angles, &drawn, working, PLOT_SIZE);
+    // A least-squares function design is drawn at the ends of the x range: the plot marks
+    // them as such (x0, xf), not as numbered positions.
+    let lsq = function && d.crank_angles.is_empty() && working.is_some();
+    let marks = AngleMarks {
+        cranks: if lsq { &[] } else { &drawn },
+        name: what,
+        working,
+        scope,
+    };
+    let angles = angle_plot_over(&st.angles, &marks, PLOT_SIZE);
+    let marked = match (s.task.as_str(), lsq) {
+        ("function", true) => {
+            "dash-dot: the ends of the x range (x0, xf), between which the linkage works".to_owned()
+        }
+        ("function", false) => "dotted: the crank angle at each precision point; dash-dot: the ends of the x range \
+             (x0, xf), between which the linkage works"
+            .to_owned(),
+        _ => format!(
+            "dotted: the crank angle at each target; the working motion runs from target 1 to target {}",
+            drawn.len()
+        ),
+    };
     let angles_fig = format!(
-        "<figure class=\"angles\">{angles}<figcaption><b>Link angles and transmission angle</b> over the working motion; \
-         dotted: the crank angle at each {what}. Shaded: μ from {MU_BAND_LOW}° to {MU_BAND_HIGH}° (common practice).</figcaption></figure>"
+        "<figure class=\"angles\">{angles}<figcaption><b>Link angles and transmission angle</b> over {}; \
+         {marked}. The worst min(μ, 180° − μ) is labelled {}{}. Shaded: μ from {MU_BAND_LOW}° to {MU_BAND_HIGH}° (common practice).</figcaption></figure>",
+        whole_motion(st),
+        scope.words(),
+        if scope != MuScope::FullTurn && st.full_turn {
+            ", and over a full turn where that is worse"
+        } else {
+            ""
+        }
     );
-    let anim_poses = thin(&st.motion, ANIMATION_FRAMES);
+    let mut anim_poses = thin(&st.motion, ANIMATION_FRAMES);
+    if runs_ccw(s, d) == Some(false) {
+        anim_poses.reverse();
+    }
     let anim = animation_svg(
         l,
         &anim_poses,
-        &st.curve,
+        curve,
         &targets,
         units,
         ANIMATION_SECONDS,
         PLOT_SIZE,
     );
+    let turning = direction
+        .as_ref()
+        .map(|(way, span)| {
+            format!(
+                ", {}{way} (the way it runs {})",
+                if st.full_turn { "" } else { "starting " },
+                esc(span)
+            )
+        })
+        .unwrap_or_default();
     let anim_fig = format!(
-        "<figure class=\"animation screen-only\">{anim}<figcaption><b>One {}</b>, {ANIMATION_SECONDS} s per cycle at constant crank speed \
+        "<figure class=\"animation screen-only\">{anim}<figcaption><b>One {}</b>{turning}; {ANIMATION_SECONDS} s per cycle at constant crank speed \
          (animated on screen; not printed).</figcaption></figure>",
         if st.full_turn {
             "full turn of the crank"
@@ -981,11 +1181,11 @@ fn design_section(h: &mut String, s: &Summary, d: &DesignSummary, design: &Desig
     );
     match s.task.as_str() {
         "motion" => {
-            let close = motion_closeup(l, poses, &st.curve, &frames, frame_angle, units, PLOT_SIZE);
+            let close = motion_closeup(l, poses, curve, &frames, frame_angle, units, PLOT_SIZE);
             let _ = writeln!(
                 h,
                 "<div class=\"pair\"><figure class=\"closeup\">{close}<figcaption><b>Close-up of the poses</b>, to scale: \
-                 the coupler frame (solid) against each target pose (dashed).</figcaption></figure>{angles_fig}</div>\n\
+                 the coupler frame (solid) against each target pose (dashed), on the coupler curve.</figcaption></figure>{angles_fig}</div>\n\
                  <div class=\"pair\">{anim_fig}</div>"
             );
         }
@@ -1037,7 +1237,7 @@ fn stat(h: &mut String, key: &str, label: &str, value: &str, unit: &str, warn: b
     );
 }
 
-/// How the input moves on the working motion, in words.
+/// How the input moves over its whole motion, in words.
 fn crank_motion_text(st: &Study) -> String {
     if st.full_turn {
         return "crank turns fully".into();
@@ -1071,19 +1271,23 @@ fn thin(poses: &[Pose], max: usize) -> Vec<Pose> {
     v
 }
 
-fn dimension_card(h: &mut String, l: &crate::FourBar, u: &str) {
+fn dimension_card(h: &mut String, s: &Summary, d: &DesignSummary, l: &crate::FourBar, u: &str) {
     let (o2, o4, cp) = (l.input_pivot(), l.output_pivot(), l.coupler_point());
     let len = |v: f64| format!("{} {u}", sig(v, DIM_DIGITS));
-    let rows: Vec<(&str, String)> = vec![
+    let function = s.task == "function";
+    let mut rows: Vec<(&str, &str, String)> = vec![
         (
+            "input_pivot",
             "input pivot O2",
             format!("{} {u}", pair(o2.x, o2.y, DIM_DIGITS)),
         ),
         (
+            "output_pivot",
             "output pivot O4",
             format!("{} {u}", pair(o4.x, o4.y, DIM_DIGITS)),
         ),
         (
+            "ground",
             "ground O2–O4",
             format!(
                 "{} at {}°",
@@ -1091,31 +1295,179 @@ fn dimension_card(h: &mut String, l: &crate::FourBar, u: &str) {
                 angle(l.ground_angle().to_degrees())
             ),
         ),
-        ("crank r2", len(l.input_link())),
-        ("coupler r3", len(l.coupler())),
-        ("output link r4", len(l.output_link())),
+        ("input_link", "crank r2", len(l.input_link())),
+        ("coupler", "coupler r3", len(l.coupler())),
         (
+            "output_link",
+            if output_rocks(l) {
+                "output link (rocker) r4"
+            } else {
+                "output link r4"
+            },
+            len(l.output_link()),
+        ),
+    ];
+    // A function generator's coupler point sits on joint A: nothing to build.
+    if !function {
+        rows.push((
+            "coupler_point",
             "coupler point",
             format!(
                 "p {}, q {} {u}",
                 sig(cp.p, DIM_DIGITS),
                 sig(cp.q, DIM_DIGITS)
             ),
-        ),
-        ("assembly", l.assembly().name().to_owned()),
-    ];
-    h.push_str("<div class=\"block\"><h3>Dimensions</h3><table class=\"dimensions compact\"><caption>p along the coupler from A towards B, q to its left.</caption><tbody>");
-    for (k, v) in rows {
+        ));
+    }
+    if let (true, Some(a)) = (s.task == "motion", measure(d, "frame_angle")) {
+        rows.push((
+            "frame_angle",
+            "coupler frame angle",
+            format!("{}° from A→B", sig(a, DIM_DIGITS)),
+        ));
+    }
+    rows.push(("assembly", "assembly", l.assembly().name().to_owned()));
+    let _ = write!(
+        h,
+        "<div class=\"block\"><h3>Dimensions</h3><table class=\"dimensions compact\"><caption>{}</caption><tbody>",
+        match s.task.as_str() {
+            "function" => "No coupler point: function generation uses the output link's angle alone.",
+            "motion" => "p along the coupler from A towards B, q to its left; the coupler frame's x axis turned \
+                         the frame angle counter-clockwise from the coupler line A→B.",
+            _ => "p along the coupler from A towards B, q to its left.",
+        }
+    );
+    for (key, k, v) in rows {
         let _ = write!(
             h,
-            "<tr><td class=\"key\">{}</td><td class=\"num\">{v}</td></tr>",
+            "<tr data-key=\"{key}\"><td class=\"key\">{}</td><td class=\"num\">{v}</td></tr>",
             esc(k)
         );
     }
     h.push_str("</tbody></table></div>");
 }
 
-/// Per-target results: crank angle, distance error and (motion) angle error.
+/// An angle in degrees with two decimals, for the angles a linkage is mounted at.
+fn mount_angle(v: f64) -> String {
+    if v.is_finite() {
+        format!("{:.2}", v + 0.0)
+    } else {
+        "–".into()
+    }
+}
+
+/// Function generation: the angles the linkage is mounted at (crank and output at both ends
+/// of the x range, from the ground line), and the positions it is drawn at: the precision
+/// points (x, crank angle, output angle), or the ends of the x range for least squares.
+fn function_card(h: &mut String, s: &Summary, d: &DesignSummary) {
+    let Some(f) = &s.scenario.task.function else {
+        return;
+    };
+    let [x0, xf] = f.x;
+    let input_start = measure(d, "input_start");
+    let input_end = measure(d, "input_end").or(input_start.map(|a| a + f.input_span));
+    let output_start = measure(d, "output_start");
+    let output_end = output_start.map(|o| o + f.output_span);
+    let rows = [
+        ("input_start", "crank at x0", input_start),
+        ("input_end", "crank at xf", input_end),
+        ("output_start", "output at x0", output_start),
+        ("output_end", "output at xf", output_end),
+    ];
+    h.push_str(
+        "<div class=\"block\"><h3>Mounting angles</h3><table class=\"mounting compact\">\
+         <caption>Degrees counter-clockwise from the ground line O2→O4.</caption><tbody>",
+    );
+    for (key, label, v) in rows {
+        let _ = write!(
+            h,
+            "<tr><td class=\"key\">{label}</td><td class=\"num\" data-key=\"{key}\">{}°</td></tr>",
+            mount_angle(v.unwrap_or(f64::NAN))
+        );
+    }
+    h.push_str("</tbody></table></div>");
+
+    // The positions drawn: (label, x, crank, output).
+    let mut at: Vec<(String, f64, f64, f64)> = Vec::new();
+    if d.crank_angles.is_empty() {
+        // Least squares has no precision points: the ends of the x range instead.
+        at.push((
+            "x0".into(),
+            x0,
+            input_start.unwrap_or(f64::NAN),
+            output_start.unwrap_or(f64::NAN),
+        ));
+        at.push((
+            "xf".into(),
+            xf,
+            input_end.unwrap_or(f64::NAN),
+            output_end.unwrap_or(f64::NAN),
+        ));
+    } else {
+        let xs: Vec<f64> = match d.measures.get("precision_x").and_then(|v| v.as_array()) {
+            Some(a) => a.iter().map(|v| v.as_f64().unwrap_or(f64::NAN)).collect(),
+            // Older summaries: x from the linear mapping of the crank.
+            None => d
+                .crank_angles
+                .iter()
+                .map(|c| match input_start {
+                    Some(a) if f.input_span != 0.0 => x0 + (c - a) / f.input_span * (xf - x0),
+                    _ => f64::NAN,
+                })
+                .collect(),
+        };
+        // The output from y normalised over the range, where the function can be evaluated.
+        let y = desired_function(f);
+        for (i, c) in d.crank_angles.iter().enumerate() {
+            let x = xs.get(i).copied().unwrap_or(f64::NAN);
+            let out = match (&y, output_start) {
+                (Some(y), Some(o)) => {
+                    let (y0, dy) = (y(x0), y(xf) - y(x0));
+                    if dy.abs() > 0.0 {
+                        o + f.output_span * (y(x) - y0) / dy
+                    } else {
+                        f64::NAN
+                    }
+                }
+                _ => f64::NAN,
+            };
+            at.push(((i + 1).to_string(), x, *c, out));
+        }
+    }
+    let with_output = at.iter().any(|r| r.3.is_finite());
+    let _ = write!(
+        h,
+        "<div class=\"block\"><h3>{}</h3><table class=\"at-targets compact\"><thead><tr><th class=\"num\">#</th>\
+         <th class=\"num\">x</th><th class=\"num\">crank (°)</th>{}</tr></thead><tbody>",
+        if d.crank_angles.is_empty() {
+            "Ends of the x range (least squares: no precision points)"
+        } else {
+            "Precision points"
+        },
+        if with_output {
+            "<th class=\"num\">output (°)</th>"
+        } else {
+            ""
+        }
+    );
+    for (label, x, c, o) in at {
+        let _ = write!(
+            h,
+            "<tr><td class=\"num\">{label}</td><td class=\"num\" data-key=\"x\">{}</td><td class=\"num\" data-key=\"crank\">{}</td>{}</tr>",
+            sig(x, DIGITS),
+            angle(c),
+            if with_output {
+                format!("<td class=\"num\" data-key=\"output\">{}</td>", angle(o))
+            } else {
+                String::new()
+            }
+        );
+    }
+    h.push_str("</tbody></table></div>");
+}
+
+/// Per-target results of path and motion generation: crank angle, distance error and
+/// (motion) angle error.
 fn target_card(
     h: &mut String,
     s: &Summary,
@@ -1125,29 +1477,6 @@ fn target_card(
     reached: &[Point2<f64>],
 ) {
     let u = esc(&s.units);
-    if s.task == "function" {
-        // Least squares has no precision points: the ends of the x range instead.
-        let title = if d.crank_angles.is_empty() {
-            "Ends of the x range (least squares: no precision points)"
-        } else {
-            "Precision points"
-        };
-        let _ = write!(
-            h,
-            "<div class=\"block\"><h3>{title}</h3><table class=\"at-targets compact\"><thead><tr><th class=\"num\">#</th>\
-             <th class=\"num\">crank (°)</th></tr></thead><tbody>"
-        );
-        for (i, c) in drawn_cranks(d).iter().enumerate() {
-            let _ = write!(
-                h,
-                "<tr><td class=\"num\">{}</td><td class=\"num\">{}</td></tr>",
-                i + 1,
-                angle(*c)
-            );
-        }
-        h.push_str("</tbody></table></div>");
-        return;
-    }
     let frames = target_frames(&s.scenario);
     let motion = s.task == "motion";
     let frame_angle = measure(d, "frame_angle").unwrap_or(0.0).to_radians();
@@ -1236,27 +1565,60 @@ fn function_figures(h: &mut String, v: &FunctionView) {
     }
 }
 
-/// The dimensions of every ranked design, for building or importing any of them.
+/// The dimensions of every ranked design, for building or importing any of them; for
+/// motion generation also the coupler frame angle, which designs.yaml does not hold.
 fn dimensions(h: &mut String, s: &Summary, designs: &[Design]) {
     if designs.is_empty() {
         return;
     }
     let u = esc(&s.units);
+    let motion = s.task == "motion";
+    // A function generator's coupler point sits on joint A: no column for it.
+    let function = s.task == "function";
     let _ = write!(
         h,
         "<section class=\"appendix\"><div class=\"section-title\"><h2>Dimensions of all designs</h2>\
-         <span class=\"sub\">lengths in {u}; the same as designs.yaml</span></div>\n<div class=\"panel\">\
+         <span class=\"sub\">lengths in {u}; {}</span></div>\n<div class=\"panel\">\
          <table class=\"all-dimensions\"><thead><tr><th class=\"num\">rank</th><th class=\"num\">O2 (x, y)</th>\
          <th class=\"num\">O4 (x, y)</th><th class=\"num\">crank r2</th><th class=\"num\">coupler r3</th>\
-         <th class=\"num\">output r4</th><th class=\"num\">coupler point (p, q)</th><th>assembly</th></tr></thead><tbody>"
+         <th class=\"num\">output r4</th>{}{}<th>assembly</th></tr></thead><tbody>",
+        if motion {
+            "linkages as in designs.yaml; frame angle (x axis from A→B) from summary.json, not in designs.yaml"
+        } else {
+            "the same as designs.yaml"
+        },
+        if function {
+            ""
+        } else {
+            "<th class=\"num\">coupler point (p, q)</th>"
+        },
+        if motion {
+            "<th class=\"num\">frame angle (°)</th>"
+        } else {
+            ""
+        }
     );
     for (d, design) in s.designs.iter().zip(designs) {
         let l = &design.linkage;
         let (o2, o4, cp) = (l.input_pivot(), l.output_pivot(), l.coupler_point());
+        let point = if function {
+            String::new()
+        } else {
+            format!("<td class=\"num\">{}</td>", pair(cp.p, cp.q, DIM_DIGITS))
+        };
+        let frame = if motion {
+            num_cell(
+                "frame_angle",
+                &sig(measure(d, "frame_angle").unwrap_or(f64::NAN), DIM_DIGITS),
+                false,
+            )
+        } else {
+            String::new()
+        };
         let _ = write!(
             h,
             "<tr class=\"dimension-row\" data-rank=\"{}\"><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td>\
-             <td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td><td>{}</td></tr>",
+             <td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td>{point}{frame}<td>{}</td></tr>",
             d.rank,
             d.rank,
             pair(o2.x, o2.y, DIM_DIGITS),
@@ -1264,7 +1626,6 @@ fn dimensions(h: &mut String, s: &Summary, designs: &[Design]) {
             sig(l.input_link(), DIM_DIGITS),
             sig(l.coupler(), DIM_DIGITS),
             sig(l.output_link(), DIM_DIGITS),
-            pair(cp.p, cp.q, DIM_DIGITS),
             l.assembly().name()
         );
     }

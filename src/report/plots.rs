@@ -6,7 +6,7 @@
 use super::draw::line;
 use super::frame::{self, finish, Axis, Map, Panel};
 use super::legend::{Legend, Swatch};
-use super::style::{self, num, text, Rgb, FONT_TICK};
+use super::style::{self, halo_text, num, text, text_width, Rgb, FONT_TICK};
 
 /// Lower edge of the shaded transmission-angle band, degrees (common practice, no source).
 pub const MU_BAND_LOW: f64 = 40.0;
@@ -132,11 +132,73 @@ fn into_range(x: f64, lo: f64, hi: f64) -> f64 {
         .unwrap_or(x)
 }
 
+/// Over which stretch of motion a worst transmission angle is taken: the scope of a
+/// result's `min_transmission`, named the same way wherever the number is shown.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum MuScope {
+    /// The whole turn of a crank (the scenario requires `crank: full-turn`).
+    FullTurn,
+    /// From the first target to the last (path and motion generation).
+    #[default]
+    BetweenTargets,
+    /// Over the task's x range (function generation).
+    XRange,
+}
+
+impl MuScope {
+    /// The scope in words, as it follows a number: `over a full turn`, `between targets`,
+    /// `over the x range`.
+    pub fn words(self) -> &'static str {
+        match self {
+            MuScope::FullTurn => "over a full turn",
+            MuScope::BetweenTargets => "between targets",
+            MuScope::XRange => "over the x range",
+        }
+    }
+
+    /// The scope as a short heading: `full turn`, `between targets`, `over the x range`.
+    pub fn short(self) -> &'static str {
+        match self {
+            MuScope::FullTurn => "full turn",
+            s => s.words(),
+        }
+    }
+}
+
+/// What an angle plot marks besides the angles, and the stretch over which it reports the
+/// worst transmission.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct AngleMarks<'a> {
+    /// Crank angles from the ground line (degrees) of the marked positions (targets,
+    /// precision points or the ends of an x range), dotted and numbered from 1; moved by
+    /// whole turns into the plotted range when needed.
+    pub cranks: &'a [f64],
+    /// Legend name of those marks (`target` when empty).
+    pub name: &'a str,
+    /// The working range `(from, to)` of crank angle (degrees) when it reaches beyond the
+    /// marks (function generation works over the whole x range, whose ends lie outside its
+    /// precision points): its ends are drawn dash-dotted, labelled `x0` (at `from`) and `xf`,
+    /// unless a mark already stands there. `None`: the first to the last mark.
+    pub working: Option<(f64, f64)>,
+    /// Scope of the labelled worst transmission.
+    pub scope: MuScope,
+}
+
+impl<'a> AngleMarks<'a> {
+    /// Targets at `cranks`, the worst transmission taken between them.
+    pub fn targets(cranks: &'a [f64]) -> Self {
+        Self {
+            cranks,
+            ..Self::default()
+        }
+    }
+}
+
 /// Link angles against crank angle: `theta3` and `theta4` in the upper panel, the
 /// transmission angle `mu` in the lower panel over the shaded 40..140 degree band (common
 /// practice, no source), the worst transmission quality `min(mu, 180 - mu)` labelled: over
-/// everything plotted when a branch turns fully, and between the first and last target
-/// when every branch rocks (its ends are toggles, where the quality is nil by definition).
+/// the whole turn when a branch turns fully, else between the first and last target (a
+/// rocking input's motion ends in toggles, where the quality is nil by definition).
 ///
 /// `branches`: one sample list per branch, each in crank order; a series is broken between
 /// branches, across crank gaps over 20 degrees and where a plotted angle jumps by more than
@@ -148,16 +210,79 @@ pub fn angle_plot(
     target_cranks: &[f64],
     size: (u32, u32),
 ) -> String {
-    angle_plot_over(branches, target_cranks, None, size)
+    let full = branches.iter().any(|b| !rocking_branch(b));
+    let marks = AngleMarks {
+        scope: if full {
+            MuScope::FullTurn
+        } else {
+            MuScope::BetweenTargets
+        },
+        ..AngleMarks::targets(target_cranks)
+    };
+    angle_plot_over(branches, &marks, size)
 }
 
-/// [`angle_plot`] with the working motion of a rocking input given explicitly as a crank
-/// range `(from, to)` in degrees (function generation works over the whole x range, which
-/// reaches beyond its precision points); `None` takes the first to the last target.
+/// Whether a branch's crank angles span less than a full turn (the input rocks).
+fn rocking_branch(b: &[AngleSample]) -> bool {
+    extent(b.iter().map(|a| a.crank)).map_or(true, |(lo, hi)| hi - lo < 360.0 - 1e-6)
+}
+
+/// A labelled point of worst transmission on the `mu` panel: the dot, and the label beside
+/// it outside the curve (above a maximum of `mu`, below a minimum, where there is room),
+/// on the flipped side when `flip`. Returns the SVG and the label's box (left, top, right,
+/// bottom, pixels).
+fn worst_mark(
+    mb: &Map,
+    (crank, mu): (f64, f64),
+    label: &str,
+    class: &str,
+    flip: bool,
+) -> (String, (f64, f64, f64, f64)) {
+    let (px, py) = (mb.px(crank), mb.py(mu));
+    let right = px < 0.5 * (mb.rect.0 + mb.rect.2);
+    let room_above = py - 7.0 - FONT_TICK > mb.rect.1;
+    let room_below = py + 15.0 < mb.rect.3;
+    let above = (if mu > 90.0 { room_above } else { !room_below }) != flip;
+    let (tx, ty) = (
+        px + if right { 7.0 } else { -7.0 },
+        py + if above { -7.0 } else { 15.0 },
+    );
+    let w = text_width(label, FONT_TICK);
+    let (l, r) = if right { (tx, tx + w) } else { (tx - w, tx) };
+    let svg = format!(
+        r#"<g class="{class}"><circle cx="{}" cy="{}" r="3" fill="{}"/>{}</g>"#,
+        num(px),
+        num(py),
+        style::INK.hex(),
+        halo_text(
+            tx,
+            ty,
+            FONT_TICK,
+            if right { "start" } else { "end" },
+            style::INK,
+            label
+        )
+    );
+    (svg, (l, ty - FONT_TICK, r, ty + 3.0))
+}
+
+/// Whether two boxes (left, top, right, bottom) overlap.
+fn overlap(a: (f64, f64, f64, f64), b: (f64, f64, f64, f64)) -> bool {
+    a.0 < b.2 && b.0 < a.2 && a.1 < b.3 && b.1 < a.3
+}
+
+/// [`angle_plot`] with its marks, working range and the scope of its worst transmission
+/// given explicitly (see [`AngleMarks`]).
+///
+/// The worst transmission quality is labelled with its scope: for
+/// [`MuScope::BetweenTargets`] and [`MuScope::XRange`] over the working range (the marks'
+/// span, or [`AngleMarks::working`]), and when a branch turns fully also over the full turn
+/// where that is worse (`<g class="worst-mu">` and `<g class="worst-mu full-turn">`); for
+/// [`MuScope::FullTurn`] over everything plotted. Marks are `<g class="target-mark">`, the
+/// ends of a working range `<g class="range-end">`.
 pub fn angle_plot_over(
     branches: &[Vec<AngleSample>],
-    target_cranks: &[f64],
-    working: Option<(f64, f64)>,
+    marks: &AngleMarks,
     size: (u32, u32),
 ) -> String {
     let all = || branches.iter().flatten();
@@ -179,14 +304,47 @@ pub fn angle_plot_over(
         x_labels: true,
         weight: 0.44,
     };
+    // The marks, and the ends of the working range that no mark stands on.
+    let (xl, xh) = (top.x.lo, top.x.hi);
+    let targets: Vec<f64> = marks
+        .cranks
+        .iter()
+        .map(|t| into_range(*t, xl, xh))
+        .collect();
+    let ends: Vec<(f64, &str)> = marks
+        .working
+        .map(|(a, b)| {
+            [(a, "x0"), (b, "xf")]
+                .into_iter()
+                .map(|(c, l)| (into_range(c, xl, xh), l))
+                .filter(|(c, _)| {
+                    c.is_finite()
+                        && *c >= xl
+                        && *c <= xh
+                        && !targets.iter().any(|t| (t - c).abs() < 0.5)
+                })
+                .collect()
+        })
+        .unwrap_or_default();
     let mut legend = Legend::new(&[
         (Swatch::Line(style::COUPLER, 1.9, None), "θ3 coupler"),
         (Swatch::Line(style::OUTPUT, 1.9, None), "θ4 output"),
         (Swatch::Line(style::GENERATED, 1.9, None), "μ transmission"),
         (Swatch::Fill(style::BAND), "40–140°"),
     ]);
-    if !target_cranks.is_empty() {
-        legend.push(Swatch::Line(style::TARGET, 1.0, Some("2 3")), "target");
+    if !targets.is_empty() {
+        let name = if marks.name.is_empty() {
+            "target"
+        } else {
+            marks.name
+        };
+        legend.push(Swatch::Line(style::TARGET, 1.0, Some(MARK_DASH)), name);
+    }
+    if !ends.is_empty() {
+        legend.push(
+            Swatch::Line(style::INK, 1.0, Some(RANGE_END_DASH)),
+            "x-range end",
+        );
     }
     let (svg, maps) = frame::frame(size, &legend, &[top, bottom]);
     let (mt, mb) = (maps[0], maps[1]);
@@ -213,31 +371,27 @@ pub fn angle_plot_over(
         ));
     }
 
-    // Target marks under the series.
-    let (xl, xh) = (mt.x.0, mt.x.1);
-    let targets: Vec<f64> = target_cranks
-        .iter()
-        .map(|t| into_range(*t, xl, xh))
-        .collect();
+    // Target marks and range ends under the series.
+    let full_height = |px: f64, colour: Rgb, dash: &str| -> String {
+        [&mt, &mb]
+            .iter()
+            .map(|m| {
+                line(
+                    "mark",
+                    (px, m.rect.1),
+                    (px, m.rect.3),
+                    colour,
+                    1.0,
+                    &format!(r#" stroke-dasharray="{dash}""#),
+                )
+            })
+            .collect()
+    };
     for (i, t) in targets.iter().enumerate() {
         if !(t.is_finite() && *t >= xl && *t <= xh) {
             continue;
         }
         let px = mt.px(*t);
-        let marks: String = [&mt, &mb]
-            .iter()
-            .map(|m| {
-                let dots = r#" stroke-dasharray="2 3""#;
-                line(
-                    "mark",
-                    (px, m.rect.1),
-                    (px, m.rect.3),
-                    style::TARGET,
-                    1.0,
-                    dots,
-                )
-            })
-            .collect();
         let number = (i + 1).to_string();
         let label = text(
             px + 3.0,
@@ -248,7 +402,37 @@ pub fn angle_plot_over(
             &number,
         );
         s.push_str(&format!(
-            r#"<g class="target-mark" data-target="{number}">{marks}{label}</g>"#
+            r#"<g class="target-mark" data-target="{number}">{}{label}</g>"#,
+            full_height(px, style::TARGET, MARK_DASH)
+        ));
+    }
+    for (c, name) in &ends {
+        let px = mt.px(*c);
+        // The label outside the working range, so it stays clear of the marks' numbers.
+        let other = ends
+            .iter()
+            .map(|e| e.0)
+            .chain(targets.iter().copied())
+            .fold(*c, |acc, v| {
+                if (v - c).abs() > (acc - c).abs() {
+                    v
+                } else {
+                    acc
+                }
+            });
+        let width = text_width(name, FONT_TICK);
+        let left = other > *c && px - 3.0 - width > mt.rect.0 || px + 3.0 + width > mt.rect.2;
+        let label = text(
+            if left { px - 3.0 } else { px + 3.0 },
+            mt.rect.1 + FONT_TICK + 1.0,
+            FONT_TICK,
+            if left { "end" } else { "start" },
+            style::INK,
+            name,
+        );
+        s.push_str(&format!(
+            r#"<g class="range-end" data-end="{name}">{}{label}</g>"#,
+            full_height(px, style::INK, RANGE_END_DASH)
         ));
     }
 
@@ -273,77 +457,97 @@ pub fn angle_plot_over(
         }
     }
 
-    // Worst transmission quality over the working motion: a crank's whole turn; for a
-    // rocking input, whose motion ends in toggles (where mu is 0 or 180 by definition), the
-    // stretch from the first target to the last, the part of the stroke that does the work.
+    // Worst transmission quality over the working range: the stretch from the first target
+    // to the last (or the given working range), the part of the stroke that does the work;
+    // a crank's whole turn when the scope is the full turn, or when there is no range.
     let quality = |mu: f64| mu.min(180.0 - mu);
-    let rocking = branches
-        .iter()
-        .all(|b| extent(b.iter().map(|a| a.crank)).is_some_and(|(lo, hi)| hi - lo < 360.0 - 1e-6));
-    let window = working
-        .map(|(a, b)| (a.min(b), a.max(b)))
-        .or_else(|| extent(targets.iter().copied().filter(|t| *t >= xl && *t <= xh)))
-        .filter(|(lo, hi)| rocking && hi > lo);
-    let inside = |c: f64| window.map_or(true, |(lo, hi)| c >= lo - 1e-9 && c <= hi + 1e-9);
-    let mut candidates: Vec<(f64, f64)> = all()
-        .filter(|a| a.mu.is_finite() && a.crank.is_finite() && inside(a.crank))
+    let full = branches.iter().any(|b| !rocking_branch(b));
+    let window = match marks.scope {
+        MuScope::FullTurn => None,
+        _ => marks
+            .working
+            .map(|(a, b)| (a.min(b), a.max(b)))
+            // The marks in running order, unwrapped: their span even across the plot's seam.
+            .or_else(|| extent(marks.cranks.iter().copied()))
+            .filter(|(lo, hi)| hi > lo && hi - lo < 360.0 - 1e-6),
+    };
+    let mu_at = |t: f64| {
+        let t = into_range(t, xl, xh);
+        branches.iter().find_map(|b| interpolate(b, t, |a| a.mu))
+    };
+    // Whether crank angle `c` lies in `[lo, hi]` up to whole turns (a range given in another
+    // turn than the plot's, or across its 0/360 seam).
+    let within_turns = |c: f64, (lo, hi): (f64, f64)| {
+        (-2..=2)
+            .map(|k| c + 360.0 * f64::from(k))
+            .any(|v| v >= lo - 1e-9 && v <= hi + 1e-9)
+    };
+    let worst_of = |cands: Vec<(f64, f64)>| {
+        cands
+            .into_iter()
+            .min_by(|a, b| quality(a.1).total_cmp(&quality(b.1)))
+    };
+    let everywhere: Vec<(f64, f64)> = all()
+        .filter(|a| a.mu.is_finite() && a.crank.is_finite())
         .map(|a| (a.crank, a.mu))
         .collect();
-    if let Some((lo, hi)) = window {
-        // The ends of the working range themselves (they fall between grid samples).
-        candidates.extend([lo, hi].iter().filter_map(|t| {
-            let mu = branches.iter().find_map(|b| interpolate(b, *t, |a| a.mu))?;
-            Some((*t, mu))
-        }));
-    }
-    if window.is_some() {
-        candidates.extend(targets.iter().filter_map(|t| {
-            let mu = branches.iter().find_map(|b| interpolate(b, *t, |a| a.mu))?;
-            Some((*t, mu))
-        }));
-    }
-    let worst = candidates
-        .into_iter()
-        .min_by(|a, b| quality(a.1).total_cmp(&quality(b.1)));
-    if let Some((crank, mu)) = worst {
-        let (px, py) = (mb.px(crank), mb.py(mu));
-        let q = quality(mu);
-        let right = px < 0.5 * (mb.rect.0 + mb.rect.2);
-        // Outside the curve: above a maximum of mu, below a minimum, where there is room.
-        let room_above = py - 7.0 - FONT_TICK > mb.rect.1;
-        let room_below = py + 15.0 < mb.rect.3;
-        let above = if mu > 90.0 { room_above } else { !room_below };
-        let label = match window {
-            Some(_) if working.is_some() => format!("worst {q:.1}° over the working range"),
-            Some(_) => format!("worst {q:.1}° between targets"),
-            None => format!("worst {q:.1}°"),
-        };
-        s.push_str(&format!(
-            r#"<g class="worst-mu"><circle cx="{}" cy="{}" r="3" fill="{}"/>{}</g>"#,
-            num(px),
-            num(py),
-            style::INK.hex(),
-            // A halo of paper colour keeps the label legible over grid and band lines.
-            text(
-                px + if right { 7.0 } else { -7.0 },
-                py + if above { -7.0 } else { 15.0 },
-                FONT_TICK,
-                if right { "start" } else { "end" },
-                style::INK,
-                &label
+    let overall = worst_of(everywhere.clone());
+    let (primary, secondary) = match window {
+        Some((lo, hi)) => {
+            // The samples inside, the ends of the range themselves and the marks (they fall
+            // between grid samples).
+            let mut cands: Vec<(f64, f64)> = everywhere
+                .iter()
+                .copied()
+                .filter(|(c, _)| within_turns(*c, (lo, hi)))
+                .collect();
+            cands.extend(
+                [lo, hi]
+                    .iter()
+                    .chain(&targets)
+                    .filter(|t| within_turns(**t, (lo, hi)))
+                    .filter_map(|t| Some((into_range(*t, xl, xh), mu_at(*t)?))),
+            );
+            let inside = worst_of(cands);
+            let label =
+                |(_, mu): (f64, f64)| format!("worst {:.1}° {}", quality(mu), marks.scope.words());
+            // Over the full turn too, where that is worse by a shown digit.
+            let turn = overall
+                .filter(|o| full && inside.map_or(true, |i| quality(i.1) - quality(o.1) >= 0.05));
+            (
+                inside.map(|w| (w, label(w))),
+                turn.map(|w| (w, format!("worst {:.1}° over a full turn", quality(w.1)))),
             )
-            .replacen(
-                "<text ",
-                &format!(
-                    r#"<text stroke="{}" stroke-width="3" stroke-linejoin="round" paint-order="stroke" "#,
-                    style::PAPER.hex()
-                ),
-                1
+        }
+        None => {
+            let words = if full { " over a full turn" } else { "" };
+            (
+                overall.map(|w| (w, format!("worst {:.1}°{words}", quality(w.1)))),
+                None,
             )
-        ));
+        }
+    };
+    let mut taken: Option<(f64, f64, f64, f64)> = None;
+    if let Some((w, label)) = primary {
+        let (svg, bbox) = worst_mark(&mb, w, &label, "worst-mu", false);
+        s.push_str(&svg);
+        taken = Some(bbox);
+    }
+    if let Some((w, label)) = secondary {
+        let class = "worst-mu full-turn";
+        let (mut svg, bbox) = worst_mark(&mb, w, &label, class, false);
+        if taken.is_some_and(|t| overlap(t, bbox)) {
+            svg = worst_mark(&mb, w, &label, class, true).0;
+        }
+        s.push_str(&svg);
     }
     finish(svg, &s)
 }
+
+/// Dash pattern of the marks at targets and precision points.
+pub(crate) const MARK_DASH: &str = "2 3";
+/// Dash pattern of the marks at the ends of a working range.
+pub(crate) const RANGE_END_DASH: &str = "7 3 2 3";
 
 /// A single-panel frame for `y` against `x`, sized to the finite data.
 fn xy_frame(
@@ -491,8 +695,9 @@ pub fn error_plot(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::report::svg_test::*;
+    use crate::report::svg_test::{ends as ends_of, *};
     use approx::assert_relative_eq;
+    use roxmltree::Node;
 
     /// Straight-line series (so interpolation is exact): theta3 = c, theta4 = 200 - c / 2,
     /// mu = 20 + c / 2 for crank c on [lo, hi] every 5 degrees.
@@ -574,8 +779,100 @@ mod tests {
         }
         assert_eq!(
             worst_label(&angle_plot(&[turn], &[90.0, 200.0], (600, 400))),
-            "worst 30.0°"
+            "worst 30.0° over a full turn"
         );
+    }
+
+    fn labels_of(svg: &str, class: &str) -> Vec<String> {
+        let doc = parse(svg);
+        by_class(&doc, "g", class)
+            .iter()
+            .map(|g| {
+                g.descendants()
+                    .find(|n| n.has_tag_name("text"))
+                    .and_then(|n| n.text())
+                    .expect("label")
+                    .trim()
+                    .to_owned()
+            })
+            .collect()
+    }
+
+    // A crank that turns fully while the result's number is taken between the targets:
+    // mu = 90 - 60 cos(crank), so between targets at 90 and 170 deg the worst quality is at
+    // 170 deg (90 - 60 cos 170 = 149.09 deg, quality 30.9 deg), over the full turn at 0 deg
+    // (30 deg). Both are labelled, each with its scope.
+    #[test]
+    fn worst_transmission_of_a_full_turn_between_targets_names_both_scopes() {
+        let mut turn = line_branch(0.0, 360.0);
+        for a in &mut turn {
+            a.mu = 90.0 - 60.0 * (a.crank.to_radians()).cos();
+        }
+        let marks = AngleMarks {
+            scope: MuScope::BetweenTargets,
+            ..AngleMarks::targets(&[90.0, 170.0])
+        };
+        let svg = angle_plot_over(&[turn.clone()], &marks, (600, 400));
+        let worst = labels_of(&svg, "worst-mu");
+        assert_eq!(worst.len(), 2, "{worst:?}");
+        assert_eq!(worst[0], "worst 30.9° between targets");
+        assert_eq!(worst[1], "worst 30.0° over a full turn");
+        assert_eq!(
+            labels_of(&svg, "full-turn"),
+            ["worst 30.0° over a full turn"]
+        );
+        // The full turn required: one label, over the whole turn.
+        let marks = AngleMarks {
+            scope: MuScope::FullTurn,
+            ..marks
+        };
+        let svg = angle_plot_over(&[turn], &marks, (600, 400));
+        assert_eq!(
+            labels_of(&svg, "worst-mu"),
+            ["worst 30.0° over a full turn"]
+        );
+    }
+
+    // Function generation: the marks are precision points, named so in the legend; the x
+    // range reaches beyond them, and its ends are drawn and labelled x0 and xf; the worst
+    // transmission is taken over the x range (mu = 20 + c / 2: at x0 = 20 deg, 30 deg).
+    #[test]
+    fn function_marks_precision_points_and_the_ends_of_the_x_range() {
+        let rocking = vec![line_branch(0.0, 120.0)];
+        let marks = AngleMarks {
+            cranks: &[30.0, 60.0, 90.0],
+            name: "precision point",
+            working: Some((100.0, 20.0)),
+            scope: MuScope::XRange,
+        };
+        let svg = angle_plot_over(&rocking, &marks, (600, 400));
+        let doc = parse(&svg);
+        let legend: Vec<&str> = by_class(&doc, "g", "legend")[0]
+            .descendants()
+            .filter(|n| n.has_tag_name("text"))
+            .filter_map(|n| n.text())
+            .collect();
+        assert!(legend.contains(&"precision point"), "{legend:?}");
+        assert!(legend.contains(&"x-range end"), "{legend:?}");
+        assert!(!legend.contains(&"target"), "{legend:?}");
+        let ends = by_class(&doc, "g", "range-end");
+        let named: Vec<&str> = ends
+            .iter()
+            .filter_map(|g| g.attribute("data-end"))
+            .collect();
+        assert_eq!(named, ["x0", "xf"]);
+        // x0 at crank 100, xf at 20: x0 lies right of xf on the plot.
+        let x_of = |g: &Node| ends_of(&child(g, "line", "mark")).0 .0;
+        assert!(x_of(&ends[0]) > x_of(&ends[1]));
+        assert_eq!(by_class(&doc, "g", "target-mark").len(), 3);
+        assert_eq!(worst_label(&svg), "worst 30.0° over the x range");
+        // An end on a mark is not drawn twice (least squares is drawn at the ends).
+        let marks = AngleMarks {
+            cranks: &[20.0, 100.0],
+            ..marks
+        };
+        let doc_svg = angle_plot_over(&rocking, &marks, (600, 400));
+        assert!(by_class(&parse(&doc_svg), "g", "range-end").is_empty());
     }
 
     #[test]

@@ -1,7 +1,12 @@
 //! What the report works out about one ranked design before drawing it: its positions at
-//! the targets, its working motion (the branch the targets lie on, swept every degree of
-//! crank), the coupler curve and link angles of that motion, and its footprint; for
-//! function generation also the desired and generated output against the task's input.
+//! the targets, its whole motion (the branch the targets lie on, swept every degree of
+//! crank: a full turn, or toggle to toggle), the coupler curve and link angles of that
+//! motion, and its footprint; for function generation also the desired and generated output
+//! against the task's input.
+//!
+//! Words: the *working motion* is the stretch between the targets (path and motion
+//! generation) or over the x range (function generation); the *whole motion* is what the
+//! input can do on the targets' branch, a full turn or toggle to toggle.
 
 use nalgebra::Point2;
 
@@ -15,7 +20,7 @@ use crate::kinematics::sweep::{sweep, Branch, Sweep, SweepOptions};
 use crate::scenario::FunctionFile;
 use crate::synthesis::output::DesignSummary;
 
-/// Crank step of the working motion the report draws and exports, degrees: one CSV row
+/// Crank step of the whole motion the report draws and exports, degrees: one CSV row
 /// and one animation frame per step.
 pub const MOTION_STEP_DEG: f64 = 1.0;
 /// Samples of the task's input `x` in function-generation plots.
@@ -27,17 +32,21 @@ pub(crate) struct Study {
     /// Positions at the targets (the result's crank angles); `None` if the linkage does not
     /// assemble at one of them (a verified design always does).
     pub target_poses: Option<Vec<Pose>>,
-    /// The working motion: every [`MOTION_STEP_DEG`] of crank on the branch of the targets,
+    /// The whole motion: every [`MOTION_STEP_DEG`] of crank on the branch of the targets,
     /// a full turn for a crank, toggle to toggle (toggle poses included) for a rocking input.
     pub motion: Vec<Pose>,
-    /// The coupler curve of the working motion.
+    /// The coupler curve of the whole motion.
     pub curve: Vec<Vec<Point2<f64>>>,
-    /// Link angles of the working motion, for the angle plot.
+    /// Link angles of the whole motion, for the angle plot.
     pub angles: Vec<Vec<AngleSample>>,
-    /// Bounding box of the working motion (both pivots, `A`, `B` and `C` everywhere).
+    /// Bounding box of the whole motion (both pivots, and `A`, `B` and the coupler point
+    /// `C` everywhere: the coupler point's path included).
     pub footprint: (Point2<f64>, Point2<f64>),
     /// Whether the crank turns fully.
     pub full_turn: bool,
+    /// Worst transmission quality `min(mu, 180 - mu)` over a full turn of the crank,
+    /// degrees; `None` when the crank cannot turn fully.
+    pub full_turn_mu: Option<f64>,
 }
 
 impl Study {
@@ -47,22 +56,25 @@ impl Study {
         let sw = sweep(l, MOTION_STEP_DEG.to_radians(), &SweepOptions::default());
         let drawn = drawn_cranks(summary);
         let first = drawn.first().map(|c| c.to_radians());
-        let working = working_branch(&sw, first);
+        let branch = targets_branch(&sw, first);
         let one = Sweep {
             range: sw.range.clone(),
-            branches: working.cloned().into_iter().collect(),
+            branches: branch.cloned().into_iter().collect(),
             solves: sw.solves,
         };
-        let motion = working.map(branch_poses).unwrap_or_default();
+        let motion = branch.map(branch_poses).unwrap_or_default();
         let target_poses = poses_at_cranks(l, &drawn);
         let mut all = motion.clone();
         all.extend(target_poses.iter().flatten().copied());
+        let full_turn = branch.is_some_and(|b| b.toggles.is_none());
+        let angles = angle_branches(l, &one);
         Study {
             target_poses,
             curve: curve_branches(l, &one),
-            angles: angle_branches(l, &one),
+            full_turn_mu: full_turn.then(|| full_turn_worst(l, &angles)),
+            angles,
             footprint: footprint(l, &all),
-            full_turn: working.is_some_and(|b| b.toggles.is_none()),
+            full_turn,
             motion,
         }
     }
@@ -81,6 +93,27 @@ impl Study {
         let (lo, hi) = self.footprint;
         (hi.x - lo.x, hi.y - lo.y)
     }
+}
+
+/// Worst transmission quality over a full turn of the crank, degrees: the least over the
+/// swept samples `angles` and the two crank angles where `|A - O4|` is extreme, the crank
+/// along the ground line and opposite it (there `|A - O4| = r1 -+ r2`, so `mu` is extreme by
+/// the law of cosines of the domain notes), which the grid may miss.
+fn full_turn_worst(l: &crate::FourBar, angles: &[Vec<AngleSample>]) -> f64 {
+    let quality = |mu: f64| mu.min(180.0 - mu);
+    let t1 = l.ground_angle();
+    let exact = [0.0, std::f64::consts::PI]
+        .into_iter()
+        .filter_map(|phi| l.transmission_angle(t1 + phi))
+        .map(f64::to_degrees);
+    angles
+        .iter()
+        .flatten()
+        .map(|a| a.mu)
+        .chain(exact)
+        .filter(|mu| mu.is_finite())
+        .map(quality)
+        .fold(f64::INFINITY, f64::min)
 }
 
 /// Crank angles (degrees from the ground line) of the positions a design is drawn at: its
@@ -112,7 +145,7 @@ pub(crate) fn study_all(summaries: &[DesignSummary], designs: &[Design]) -> Vec<
 /// The branch of `sweep` the targets lie on: the one whose arc holds the first target's
 /// crank angle `first` (radians from the ground line); the only one for a full turn; the
 /// first when no arc holds it (or there is no target).
-fn working_branch(sweep: &Sweep, first: Option<f64>) -> Option<&Branch> {
+fn targets_branch(sweep: &Sweep, first: Option<f64>) -> Option<&Branch> {
     let holds = |b: &&Branch| match (b.toggles, first) {
         (Some((start, end)), Some(phi)) => Arc { start, end }.contains(phi, 1e-6),
         _ => false,
@@ -299,9 +332,9 @@ mod tests {
     }
 
     // A double-rocker (coupler shortest) rocks on two separate arcs of crank angle; the
-    // working motion is the arc that holds the targets, whichever comes first in the sweep.
+    // whole motion drawn is the arc that holds the targets, whichever comes first in the sweep.
     #[test]
-    fn working_motion_is_the_branch_of_the_targets() {
+    fn whole_motion_is_the_branch_of_the_targets() {
         let l = FourBar::new(
             Point2::new(0.0, 0.0),
             Point2::new(100.0, 0.0),

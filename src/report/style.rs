@@ -34,7 +34,7 @@ pub const GROUND: Rgb = Rgb(0x4a, 0x55, 0x60);
 pub const CRANK: Rgb = Rgb(0x2c, 0x6e, 0x91);
 /// The coupler plate A-B-C and coupler-angle series.
 pub const COUPLER: Rgb = Rgb(0x2f, 0x8a, 0x74);
-/// The output link (rocker) and output-angle series.
+/// The output link and output-angle series.
 pub const OUTPUT: Rgb = Rgb(0xa0, 0x61, 0x3c);
 /// The coupler curve and the coupler point.
 pub const CURVE: Rgb = Rgb(0x7b, 0x5e, 0xa7);
@@ -104,6 +104,19 @@ pub(crate) fn text(x: f64, y: f64, size: f64, anchor: &str, fill: Rgb, body: &st
         num(size),
         fill.hex(),
         esc(body)
+    )
+}
+
+/// [`text`] with a halo of paper colour around the glyphs, which keeps a label legible over
+/// grid, band and link lines.
+pub(crate) fn halo_text(x: f64, y: f64, size: f64, anchor: &str, fill: Rgb, body: &str) -> String {
+    text(x, y, size, anchor, fill, body).replacen(
+        "<text ",
+        &format!(
+            r#"<text stroke="{}" stroke-width="3" stroke-linejoin="round" paint-order="stroke" "#,
+            PAPER.hex()
+        ),
+        1,
     )
 }
 
