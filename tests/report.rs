@@ -1125,3 +1125,47 @@ fn a_rocking_path_run_names_its_transmission_scopes() {
         check_direction(*s, c[c.len() - 1] > c[0]);
     }
 }
+
+// A long target list is shown at evenly spaced targets (the first and last among them) in
+// the scenario table, the drawings and the per-design table, so that the report stays small
+// (10,000 targets once made a 95 MB report); the tables say how many of how many.
+#[test]
+fn a_long_target_list_is_shown_thinned() {
+    let tmp = tempfile::tempdir().unwrap();
+    let n = 300;
+    let points: Vec<String> = (0..n)
+        .map(|k| {
+            let t = 0.004 * k as f64;
+            format!("[{:.6}, {:.6}]", 100.0 * t.cos(), 100.0 * t.sin())
+        })
+        .collect();
+    let scenario = tmp.path().join("long.yaml");
+    std::fs::write(
+        &scenario,
+        format!(
+            "units: mm\ntask:\n  path:\n    points: [{}]\nlimits:\n  crank: any\nsearch: {{seed: 1, starts: 60, keep: 2}}\n",
+            points.join(", ")
+        ),
+    )
+    .unwrap();
+    let dir = tmp.path().join("run");
+    synth(scenario.to_str().unwrap(), &dir);
+    let html = std::fs::read_to_string(dir.join("report.html")).unwrap();
+    let doc = parse(&html);
+    let rows = |class: &str| {
+        doc.descendants()
+            .filter(|n| n.has_tag_name("tr") && has_class(n, class))
+            .count()
+    };
+    let scenario_rows = rows("target-row");
+    assert!(
+        (2..=41).contains(&scenario_rows),
+        "{scenario_rows} scenario rows"
+    );
+    assert!(html.contains(&format!("evenly spaced of {n}")));
+    for table in within(doc.root(), "table", "at-targets") {
+        let body_rows = table.descendants().filter(|r| r.has_tag_name("tr")).count();
+        assert!(body_rows <= 42, "{body_rows} rows in an at-targets table");
+    }
+    assert!(html.len() < 2_000_000, "report of {} bytes", html.len());
+}

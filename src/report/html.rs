@@ -510,15 +510,17 @@ fn task_panel(h: &mut String, s: &Summary) {
         };
         let _ = write!(
             h,
-            "<table class=\"targets compact\"><caption>{timing}</caption><thead><tr><th class=\"num\">#</th>\
+            "<table class=\"targets compact\"><caption>{timing}{}</caption><thead><tr><th class=\"num\">#</th>\
              <th class=\"num\">x ({u})</th><th class=\"num\">y ({u})</th>{}</tr></thead><tbody>",
+            thinned_note(p.points.len()),
             if cranks.is_empty() {
                 ""
             } else {
                 "<th class=\"num\">crank (°)</th>"
             }
         );
-        for (i, q) in p.points.iter().enumerate() {
+        for i in thin_indices(p.points.len(), SHOWN_TARGETS) {
+            let q = &p.points[i];
             let _ = write!(
                 h,
                 "<tr class=\"target-row\"><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td>{}</tr>",
@@ -535,11 +537,13 @@ fn task_panel(h: &mut String, s: &Summary) {
     } else if let Some(m) = &sc.task.motion {
         let _ = write!(
             h,
-            "<table class=\"targets compact\"><caption>Poses of a frame fixed to the coupler, in running order.</caption>\
+            "<table class=\"targets compact\"><caption>Poses of a frame fixed to the coupler, in running order.{}</caption>\
              <thead><tr><th class=\"num\">#</th><th class=\"num\">x ({u})</th><th class=\"num\">y ({u})</th>\
-             <th class=\"num\">angle (°)</th></tr></thead><tbody>"
+             <th class=\"num\">angle (°)</th></tr></thead><tbody>",
+            thinned_note(m.poses.len())
         );
-        for (i, p) in m.poses.iter().enumerate() {
+        for i in thin_indices(m.poses.len(), SHOWN_TARGETS) {
+            let p = &m.poses[i];
             let cell = |k: usize| p.get(k).map_or_else(|| "–".into(), |v| given(*v));
             let _ = write!(
                 h,
@@ -1048,11 +1052,24 @@ fn design_section(h: &mut String, s: &Summary, d: &DesignSummary, design: &Desig
     h.push_str("</div>\n");
 
     // The drawing at the targets, and the dimensions beside it.
-    let targets = target_points(&s.scenario);
-    let reached: Vec<Point2<f64>> = d.reached.iter().map(|r| Point2::new(r[0], r[1])).collect();
-    let poses: &[Pose] = st.target_poses.as_deref().unwrap_or(&[]);
+    // A long target list is shown at SHOWN_TARGETS of its targets, evenly spaced.
+    let all_targets = target_points(&s.scenario);
+    let n_targets = all_targets.len().max(d.crank_angles.len());
+    let shown_idx = thin_indices(n_targets, SHOWN_TARGETS);
+    let thinned = shown_idx.len() < n_targets;
+    let targets = pick(&all_targets, &shown_idx);
+    let reached: Vec<Point2<f64>> = pick(&d.reached, &shown_idx)
+        .iter()
+        .map(|r| Point2::new(r[0], r[1]))
+        .collect();
+    let shown_poses = match st.target_poses.as_deref() {
+        Some(p) if p.len() == n_targets => pick(p, &shown_idx),
+        Some(p) => p.to_vec(),
+        None => Vec::new(),
+    };
+    let poses: &[Pose] = &shown_poses;
     let motion = s.task == "motion";
-    let frames = target_frames(&s.scenario);
+    let frames = pick(&target_frames(&s.scenario), &shown_idx);
     let frame_angle = measure(d, "frame_angle").unwrap_or(0.0).to_radians();
     // A function generator has no coupler point of its own (it sits on joint A): no curve.
     let curve: &[Vec<Point2<f64>>] = if function { &[] } else { &st.curve };
@@ -1071,8 +1088,13 @@ fn design_section(h: &mut String, s: &Summary, d: &DesignSummary, design: &Desig
     };
     let _ = write!(
         h,
-        "<div class=\"sheet\"><figure class=\"linkage\">{fig}<figcaption><b>Drawn to scale at the {n} {what} position{}</b> \
+        "<div class=\"sheet\"><figure class=\"linkage\">{fig}<figcaption><b>Drawn to scale at {} {what} position{}</b> \
          (position 1 solid and labelled: fixed pivots O2, O4 and joints A, B; the others faded){}{}.</figcaption></figure>\n<div class=\"panel card\">",
+        if thinned {
+            format!("{n} evenly spaced of the {n_targets}")
+        } else {
+            format!("the {n}")
+        },
         if n == 1 { "" } else { "s" },
         if function {
             String::new()
@@ -1095,7 +1117,7 @@ fn design_section(h: &mut String, s: &Summary, d: &DesignSummary, design: &Desig
     if function {
         function_card(h, s, d);
     } else {
-        target_card(h, s, d, st, &targets, &reached);
+        target_card(h, s, d, st, &shown_idx);
     }
     h.push_str("</div></div>\n");
 
@@ -1113,7 +1135,10 @@ fn design_section(h: &mut String, s: &Summary, d: &DesignSummary, design: &Desig
         }
         _ => None,
     };
-    let drawn = drawn_cranks(d);
+    let drawn = match drawn_cranks(d) {
+        c if c.len() == n_targets => pick(&c, &shown_idx),
+        c => c,
+    };
     // A least-squares function design is drawn at the ends of the x range: the plot marks
     // them as such (x0, xf), not as numbered positions.
     let lsq = function && d.crank_angles.is_empty() && working.is_some();
@@ -1132,8 +1157,8 @@ fn design_section(h: &mut String, s: &Summary, d: &DesignSummary, design: &Desig
              (x0, xf), between which the linkage works"
             .to_owned(),
         _ => format!(
-            "dotted: the crank angle at each target; the working motion runs from target 1 to target {}",
-            drawn.len()
+            "dotted: the crank angle at each target{}; the working motion runs from target 1 to target {n_targets}",
+            if thinned { " shown" } else { "" }
         ),
     };
     let angles_fig = format!(
@@ -1258,17 +1283,43 @@ fn crank_motion_text(st: &Study) -> String {
 
 /// Every `k`-th pose so that at most `max` remain, the last one kept.
 fn thin(poses: &[Pose], max: usize) -> Vec<Pose> {
-    if poses.len() <= max || max < 2 {
-        return poses.to_vec();
+    thin_indices(poses.len(), max)
+        .into_iter()
+        .map(|i| poses[i])
+        .collect()
+}
+
+/// At most about `max` indices of `0..n`, evenly stepped, the first and the last included
+/// (all of them when `n <= max`).
+fn thin_indices(n: usize, max: usize) -> Vec<usize> {
+    if n <= max || max < 2 {
+        return (0..n).collect();
     }
-    let k = poses.len().div_ceil(max - 1);
-    let mut v: Vec<Pose> = poses.iter().step_by(k).copied().collect();
-    if let Some(last) = poses.last() {
-        if (poses.len() - 1) % k != 0 {
-            v.push(*last);
-        }
+    let k = n.div_ceil(max - 1);
+    let mut v: Vec<usize> = (0..n).step_by(k).collect();
+    if (n - 1) % k != 0 {
+        v.push(n - 1);
     }
     v
+}
+
+/// Most targets of a design drawn, marked on its plots and listed one by one; a longer list
+/// is shown at evenly spaced targets, the first and last included (`summary.json` has all).
+const SHOWN_TARGETS: usize = 40;
+
+/// " Shown: k evenly spaced of n." when a list of `n` is thinned to [`SHOWN_TARGETS`].
+fn thinned_note(n: usize) -> String {
+    let k = thin_indices(n, SHOWN_TARGETS).len();
+    if k < n {
+        format!(" Shown: {k} evenly spaced of {n} (the scenario file has all).")
+    } else {
+        String::new()
+    }
+}
+
+/// `v` at the indices `idx` (those within it).
+fn pick<T: Copy>(v: &[T], idx: &[usize]) -> Vec<T> {
+    idx.iter().filter_map(|&i| v.get(i).copied()).collect()
 }
 
 fn dimension_card(h: &mut String, s: &Summary, d: &DesignSummary, l: &crate::FourBar, u: &str) {
@@ -1468,24 +1519,24 @@ fn function_card(h: &mut String, s: &Summary, d: &DesignSummary) {
 
 /// Per-target results of path and motion generation: crank angle, distance error and
 /// (motion) angle error.
-fn target_card(
-    h: &mut String,
-    s: &Summary,
-    d: &DesignSummary,
-    st: &Study,
-    targets: &[Point2<f64>],
-    reached: &[Point2<f64>],
-) {
+fn target_card(h: &mut String, s: &Summary, d: &DesignSummary, st: &Study, shown: &[usize]) {
     let u = esc(&s.units);
+    let targets = target_points(&s.scenario);
     let frames = target_frames(&s.scenario);
     let motion = s.task == "motion";
     let frame_angle = measure(d, "frame_angle").unwrap_or(0.0).to_radians();
     // A crank that turns fully: its angles as on the plot's axis, in [0, 360).
-    let shown = |c: f64| if st.full_turn { c.rem_euclid(360.0) } else { c };
+    let turn = |c: f64| if st.full_turn { c.rem_euclid(360.0) } else { c };
+    let n = d.crank_angles.len();
     let _ = write!(
         h,
-        "<div class=\"block\"><h3>At the targets</h3><table class=\"at-targets compact\"><thead><tr><th class=\"num\">#</th>\
+        "<div class=\"block\"><h3>At the targets{}</h3><table class=\"at-targets compact\"><thead><tr><th class=\"num\">#</th>\
          <th class=\"num\">crank (°)</th><th class=\"num\">error ({u})</th>{}</tr></thead><tbody>",
+        if shown.len() < n {
+            format!(" ({} evenly spaced of {n}; all in summary.json)", shown.len())
+        } else {
+            String::new()
+        },
         if motion {
             "<th class=\"num\">angle error (°)</th>"
         } else {
@@ -1493,9 +1544,12 @@ fn target_card(
         }
     );
     let poses = st.target_poses.as_deref().unwrap_or(&[]);
-    for (i, c) in d.crank_angles.iter().enumerate() {
-        let err = match (targets.get(i), reached.get(i)) {
-            (Some(t), Some(r)) => (t - r).norm(),
+    for &i in shown {
+        let Some(c) = d.crank_angles.get(i) else {
+            continue;
+        };
+        let err = match (targets.get(i), d.reached.get(i)) {
+            (Some(t), Some(r)) => (t - Point2::new(r[0], r[1])).norm(),
             _ => f64::NAN,
         };
         let angle_err = match (frames.get(i), poses.get(i)) {
@@ -1508,7 +1562,7 @@ fn target_card(
             h,
             "<tr><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td>{}</tr>",
             i + 1,
-            angle(shown(*c)),
+            angle(turn(*c)),
             sig(err, 3),
             if motion {
                 format!("<td class=\"num\">{}</td>", sig(angle_err, 3))
