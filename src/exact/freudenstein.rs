@@ -204,7 +204,7 @@ impl FreudensteinK {
             return Err(FreudensteinError::BadGround { r1 });
         }
         let r2 = r1 / self.k1;
-        if !(r2.is_finite() && self.k1 != 0.0) {
+        if !(r2.is_finite() && self.k1.abs() > NEGLIGIBLE_K) {
             return Err(FreudensteinError::InfiniteLink {
                 which: "K1",
                 value: self.k1,
@@ -212,7 +212,7 @@ impl FreudensteinK {
             });
         }
         let r4 = r1 / self.k2;
-        if !(r4.is_finite() && self.k2 != 0.0) {
+        if !(r4.is_finite() && self.k2.abs() > NEGLIGIBLE_K) {
             return Err(FreudensteinError::InfiniteLink {
                 which: "K2",
                 value: self.k2,
@@ -231,6 +231,10 @@ impl FreudensteinK {
         })
     }
 }
+
+/// `|K1|` or `|K2|` at or below which the input or output link counts as infinitely long (more
+/// than a billion ground lengths: round-off of a solve whose exact answer is zero).
+pub const NEGLIGIBLE_K: f64 = 1e-9;
 
 /// The linkage in Freudenstein's frame: `O2 = (0, 0)`, `O4 = (r1, 0)`, lengths
 /// `[r1, r2, r3, r4]`, the coupler point at joint `A` (function generation does not use it).
@@ -588,6 +592,26 @@ mod tests {
 
     fn bar(r1: f64, r2: f64, r3: f64, r4: f64, assembly: Assembly) -> FourBar {
         linkage_on_x_axis([r1, r2, r3, r4], assembly).unwrap()
+    }
+
+    // With the output always 1 rad ahead of the input, Freudenstein's equation
+    // K1 cos(theta4) - K2 cos(theta2) + K3 = cos(theta2 - theta4) holds for every angle only
+    // with K1 = K2 = 0: no finite linkage does it. The solve gives K1, K2 of round-off size,
+    // which once slipped through as a linkage 1e17 ground lengths long.
+    #[test]
+    fn a_constant_phase_shift_asks_for_an_infinite_link() {
+        let pairs: Vec<AnglePair> = [0.1, 0.7, 1.3]
+            .iter()
+            .map(|t| AnglePair {
+                theta2: *t,
+                theta4: t + 1.0,
+            })
+            .collect();
+        let err = design(&pairs, 100.0, &FreudensteinOptions::default()).unwrap_err();
+        assert!(
+            matches!(err, FreudensteinError::InfiniteLink { .. }),
+            "{err:?}"
+        );
     }
 
     fn pairs_of(l: &FourBar, degrees: &[f64]) -> Vec<AnglePair> {

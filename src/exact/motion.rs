@@ -138,13 +138,13 @@ pub struct BurmesterOptions {
     pub tolerance: f64,
     /// Two solutions closer than this (times one plus their distance from the frame origin)
     /// are one; a near-double root is only found to about the square root of the
-    /// round-off. Default `1e-6`.
+    /// round-off, and the polish of poses close together may stop short. Default `1e-3`.
     pub distinct: f64,
     /// A solution where two positions of the moving pivot are closer than this is a pole
     /// (degenerate) and is discarded. Default `1e-6`.
     pub degenerate: f64,
     /// Largest spread of the distances `|M_k - c|` (relative to the radius, or to the size
-    /// for small radii) accepted for a Burmester point. Default `1e-7`.
+    /// for small radii) accepted for a Burmester point. Default `1e-8`.
     pub concyclic: f64,
 }
 
@@ -156,9 +156,9 @@ impl Default for BurmesterOptions {
             grid_starts: 8,
             max_iterations: 100,
             tolerance: 1e-13,
-            distinct: 1e-6,
+            distinct: 1e-3,
             degenerate: 1e-6,
-            concyclic: 1e-7,
+            concyclic: 1e-8,
         }
     }
 }
@@ -256,7 +256,9 @@ impl Normalized {
 
     /// Least-squares centre (normalised) of the circle through the positions of `m` in all
     /// poses, and the largest deviation of their distances from the mean radius (relative
-    /// to `max(radius, 1)`). `None` when the positions are (nearly) collinear.
+    /// to `max(radius, 1)`, and never less than a thousandth of the deviation itself in units
+    /// of the pose set's size, so that a circle far larger than the poses cannot hide a
+    /// deviation the size of the poses). `None` when the positions are (nearly) collinear.
     fn centre_of(&self, m: &Vector2<f64>) -> Option<(Vector2<f64>, f64)> {
         let pts: Vec<Vector2<f64>> = (0..self.origins.len()).map(|k| self.point(k, m)).collect();
         let n = pts.len() - 1;
@@ -275,7 +277,7 @@ impl Normalized {
         let radii: Vec<f64> = pts.iter().map(|p| (p - c).norm()).collect();
         let mean = radii.iter().sum::<f64>() / radii.len() as f64;
         let spread = radii.iter().fold(0.0f64, |s, r| s.max((r - mean).abs()));
-        Some((c, spread / mean.max(1.0)))
+        Some((c, (spread / mean.max(1.0)).max(1e-3 * spread)))
     }
 
     /// Residuals `|M_k(m) - c|^2 - rho` of the five circle conditions at
@@ -673,12 +675,11 @@ pub fn burmester_points(
             continue;
         };
         let (m, _) = n.polish(turn * u, c);
-        if found
+        // A copy of a point already found (the polish of an ill-conditioned set may stop
+        // short of it): the better converged of the two is kept below.
+        let copy = found
             .iter()
-            .any(|(q, _, _)| (q - m).norm() <= options.distinct * (1.0 + m.norm()))
-        {
-            continue;
-        }
+            .position(|(q, _, _)| (q - m).norm() <= options.distinct * (1.0 + m.norm()));
         let pts: Vec<Vector2<f64>> = (0..5).map(|k| n.point(k, &m)).collect();
         let pole =
             (0..5).any(|i| (i + 1..5).any(|j| (pts[i] - pts[j]).norm() <= options.degenerate));
@@ -686,8 +687,11 @@ pub fn burmester_points(
             continue;
         }
         if let Some((c, spread)) = n.centre_of(&m) {
-            if spread <= options.concyclic {
-                found.push((m, c, spread));
+            match copy {
+                Some(i) if spread < found[i].2 => found[i] = (m, c, spread),
+                Some(_) => {}
+                None if spread <= options.concyclic => found.push((m, c, spread)),
+                None => {}
             }
         }
     }
@@ -933,6 +937,47 @@ mod tests {
                 b.iter().any(|e| close(e, &want, l.size(), 1e-7)),
                 "{want:?}"
             );
+        }
+    }
+
+    // Under a pure translation the moving pivot's positions are the frame origins shifted by
+    // one vector, so they lie on a circle only if the origins do; (0, 0), (1, 0), (2, 1),
+    // (3, 3), (1, 4) do not (the circle through the first three misses the fourth). A far
+    // point whose positions deviate from a circle by a whole unit once passed, its deviation
+    // divided by a radius of 1e15.
+    #[test]
+    fn a_translation_off_a_circle_has_no_burmester_point() {
+        let poses = [(0.0, 0.0), (1.0, 0.0), (2.0, 1.0), (3.0, 3.0), (1.0, 4.0)]
+            .map(|(x, y)| FramePose::new(x, y, 0.0));
+        let found = burmester_points(&poses, &BurmesterOptions::default()).unwrap();
+        assert!(found.is_empty(), "{found:?}");
+    }
+
+    // Real Burmester points of five poses come as 0, 2 or 4 (the complex ones pair off;
+    // Burmester theory, from memory), each keeping one distance to its centre over all five
+    // poses. Five poses close together (each about 0.15 rad apart) once gave three: one point
+    // twice, the copy short of convergence.
+    #[test]
+    fn close_poses_give_each_burmester_point_once() {
+        let poses = [
+            (-2.020552188413589, -3.0990116633431843, -0.3030867282777806),
+            (-1.6843325304440266, -3.102044446428218, -0.4377093041971297),
+            (-1.4070848620217438, -3.160663269558706, -0.5965086016387003),
+            (-1.211822268012591, -3.243630850242582, -0.7869797958443048),
+            (-1.1062543470789998, -3.302362322593452, -1.016479960083383),
+        ]
+        .map(|(x, y, a)| FramePose::new(x, y, a));
+        let found = burmester_points(&poses, &BurmesterOptions::default()).unwrap();
+        assert_eq!(found.len() % 2, 0, "{found:?}");
+        for d in &found {
+            let r: Vec<f64> = poses
+                .iter()
+                .map(|p| (d.moving_at(p) - d.fixed).norm())
+                .collect();
+            let (lo, hi) = r
+                .iter()
+                .fold((f64::MAX, f64::MIN), |(a, b), v| (a.min(*v), b.max(*v)));
+            assert!(hi - lo <= 1e-9 * hi.max(1.0), "{d:?}: radii {r:?}");
         }
     }
 
