@@ -134,8 +134,10 @@ pub fn transmission_summary(linkage: &FourBar, range: &InputRange) -> Option<Tra
         InputRange::Arcs(arcs) => {
             for a in arcs {
                 cand.extend([at_toggle(&a.start), at_toggle(&a.end)]);
+                // The angles strictly between the toggles (none for an arc of zero length).
                 let inner = transmission_critical_angles(a.start.phi, a.end.phi);
-                cand.extend(inner[1..inner.len() - 1].iter().map(|&c| (c, None)));
+                let between = inner.get(1..inner.len().saturating_sub(1)).unwrap_or(&[]);
+                cand.extend(between.iter().map(|&c| (c, None)));
             }
         }
     }
@@ -327,6 +329,18 @@ mod tests {
             Assembly::Open,
         )
         .unwrap()
+    }
+
+    // r1 = 3, r2 = r3 = r4 = 1: the crank pin reaches r3 + r4 = 2 from O4 only at crank angle
+    // 0 (|A - O4| = r1 - r2), so the linkage assembles at that one angle, stretched in line
+    // (mu = 180 deg). This arc of zero length once panicked the transmission summary.
+    #[test]
+    fn a_linkage_that_assembles_at_one_crank_angle_only() {
+        let l = bar(3.0, 1.0, 1.0, 1.0);
+        let a = analyse(&l, &AnalysisOptions::default());
+        let t = a.transmission.expect("assembles at crank angle 0");
+        assert_relative_eq!(t.max.0, PI, epsilon = 1e-12);
+        assert_relative_eq!(t.max.1, 0.0, epsilon = 1e-9);
     }
 
     // Crank-rocker extremes in closed form: the output is at its limits when crank and
