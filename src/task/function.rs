@@ -358,8 +358,7 @@ impl FunctionTask {
             }
         }
         for d in vectors {
-            let scale = d.norm();
-            if !(scale > 0.0 && scale.is_finite()) {
+            if !(d.norm() > 0.0 && d.norm().is_finite()) {
                 continue;
             }
             let (o2, o4) = match (p.o2, p.o4) {

@@ -138,16 +138,10 @@ impl Geometry {
 #[derive(Debug, Clone, PartialEq)]
 pub struct Layout {
     ground: Ground,
-    /// Link length bounds (internal units).
-    pub length: (f64, f64),
-    /// Region of the input pivot (internal units): the limit, or a search box around the
-    /// targets when there is none.
-    pub region: (Point2<f64>, Point2<f64>),
-    /// Region of the output pivot (internal units), likewise.
-    pub region_out: (Point2<f64>, Point2<f64>),
-    /// Coupler point bound: `|p|, |q| <= coupler_bound`.
-    pub coupler_bound: f64,
-    /// Where random starts are drawn: the same as the bounds, except that where the user gave
+    /// Where refinement may go, and where the free pivots are held by the region penalty
+    /// (internal units): the limits, or boxes around the targets where there are none.
+    bounded: SearchBox,
+    /// Where random starts are drawn: the same as `bounded`, except that where the user gave
     /// no limit an opened layout ([`Layout::opened`]) bounds the refinement far wider than it
     /// draws its starts.
     search: SearchBox,
@@ -255,10 +249,7 @@ impl Layout {
         };
         Layout {
             ground,
-            length: search.length,
-            region: search.region,
-            region_out: search.region_out,
-            coupler_bound: search.coupler_bound,
+            bounded: search,
             search,
             output_region_given: limits.output_region.is_some(),
             max_ratio: limits.max_length_ratio,
@@ -282,10 +273,7 @@ impl Layout {
             o2,
             o4,
         );
-        self.length = wide.length;
-        self.region = wide.region;
-        self.region_out = wide.region_out;
-        self.coupler_bound = wide.coupler_bound;
+        self.bounded = wide;
         self
     }
 
@@ -314,12 +302,7 @@ impl Layout {
 
     /// Bounds of the layout's variables.
     pub fn bounds(&self) -> (Vec<f64>, Vec<f64>) {
-        self.bounds_of(&SearchBox {
-            length: self.length,
-            region: self.region,
-            region_out: self.region_out,
-            coupler_bound: self.coupler_bound,
-        })
+        self.bounds_of(&self.bounded)
     }
 
     fn bounds_of(&self, sb: &SearchBox) -> (Vec<f64>, Vec<f64>) {
@@ -530,12 +513,12 @@ impl Layout {
         let o2_term = if o2_fixed {
             0.0
         } else {
-            outside(g.o2, self.region)
+            outside(g.o2, self.bounded.region)
         };
         let o4_term = if o4_fixed {
             0.0
         } else {
-            outside(g.o4, self.region_out)
+            outside(g.o4, self.bounded.region_out)
         };
         out[3] = w * (o2_term + o4_term);
         match (self.full_turn, self.min_transmission) {
