@@ -68,8 +68,7 @@ pub enum TraceEnd {
 ///
 /// Along a uniform grid the unit vectors are carried from station to station by turning
 /// them (see [`GridTurn`]) rather than evaluated afresh; `e2_error` and `units_error` bound
-/// how far they have drifted from `e(theta2)` and from `e(theta3)`, `e(theta4)` (radians),
-/// and `age` counts the stations since they were last evaluated.
+/// how far they have drifted from `e(theta2)` and from `e(theta3)`, `e(theta4)` (radians).
 #[derive(Debug, Clone, Copy)]
 struct Node {
     pose: Pose,
@@ -80,7 +79,6 @@ struct Node {
     d: [f64; 4],
     e2_error: f64,
     units_error: f64,
-    age: u32,
 }
 
 impl Node {
@@ -102,7 +100,6 @@ impl Node {
             d,
             e2_error: 0.0,
             units_error: 0.0,
-            age: 0,
         })
     }
 
@@ -119,9 +116,11 @@ fn sign_of(e3: Vector2<f64>, e4: Vector2<f64>) -> Assembly {
     Assembly::from_sign(e4.y * e3.x - e4.x * e3.y)
 }
 
-/// Stations of a uniform grid crossed with carried (turned) unit vectors before they are
-/// evaluated afresh; this bounds their drift to a few hundred rounding units.
-const GRID_RESYNC: u32 = 8;
+/// Share of the Newton-Raphson tolerance that the drift of carried (turned) unit vectors may
+/// take: along a uniform grid they are evaluated afresh once the bound on the error they
+/// bring into the loop closure would exceed it. The rest of the tolerance is left to the
+/// quadratic-convergence bound of the correction, so that one iteration still suffices.
+const DRIFT_SHARE: f64 = 0.25;
 
 /// A uniform grid of crank angles with step `h`: `e(theta2 + h) = R(h) e(theta2)`, so along
 /// the grid `e(theta2)` is turned by a rotation computed once instead of evaluating `sin`
@@ -181,6 +180,9 @@ pub struct Tracer<'a> {
     o24: Vector2<f64>,
     /// Lengths and tolerances of the Newton-Raphson solves.
     k: LoopConstants,
+    /// Largest error (length) that carried unit vectors may bring into a loop closure:
+    /// [`DRIFT_SHARE`] of the absolute tolerance.
+    drift_budget: f64,
 }
 
 impl<'a> Tracer<'a> {
@@ -193,6 +195,7 @@ impl<'a> Tracer<'a> {
             solves: 0,
             o24: linkage.input_pivot() - linkage.output_pivot(),
             k: LoopConstants::new(linkage, &options.newton),
+            drift_budget: DRIFT_SHARE * options.newton.tolerance * linkage.size(),
         }
     }
 
@@ -242,28 +245,31 @@ impl<'a> Tracer<'a> {
         }
     }
 
-    /// One continuation step from `from` to crank angle `theta2`: second-order predictor,
-    /// Newton-Raphson, and a check that the solution kept the assembly `sign` and stayed
-    /// near the prediction. Returns the new node and the Newton iterations, or the status
-    /// of the failed step (`Converged` when it converged onto another branch).
+    /// One continuation step from the node `at` to crank angle `theta2`: second-order
+    /// predictor, Newton-Raphson, and a check that the solution kept the assembly `sign` and
+    /// stayed near the prediction. On success `at` becomes the new node and the Newton
+    /// iterations are returned; on failure `at` is left as it was and the status of the
+    /// failed step is returned (`Converged` when it converged onto another branch).
     ///
-    /// With `grid` (a uniform grid whose step this is), the unit vectors are carried over
-    /// from `from` by turning them, for up to [`GRID_RESYNC`] stations; the bound on their
-    /// drift enters the Newton-Raphson solve as a known error of the loop closure.
+    /// With `grid` (a uniform grid whose step `dt` is this step's), the unit vectors are
+    /// carried over from `at` by turning them while the bound on their drift stays within
+    /// [`DRIFT_SHARE`] of the tolerance; that bound enters the Newton-Raphson solve as a
+    /// known error of the loop closure.
     #[inline]
     fn step(
         &mut self,
-        from: &Node,
+        at: &mut Node,
         theta2: f64,
         grid: Option<&GridTurn>,
         sign: Assembly,
-    ) -> Result<(Node, usize), PositionStatus> {
+    ) -> Result<usize, PositionStatus> {
         const EPS: f64 = f64::EPSILON;
+        let from = &*at;
         let dt = theta2 - from.pose.theta2;
         let [k3, k4, a3, a4] = from.d;
         let d3 = dt * (k3 + 0.5 * a3 * dt);
         let d4 = dt * (k4 + 0.5 * a4 * dt);
-        if d3.abs().max(d4.abs()) > MAX_JUMP {
+        if d3.abs() > MAX_JUMP || d4.abs() > MAX_JUMP {
             // The step is too long for the local rates (near a toggle, longer than the
             // Taylor series' radius of convergence): a prediction this far out could land
             // within MAX_JUMP of a solution whole turns away.
@@ -271,30 +277,29 @@ impl<'a> Tracer<'a> {
         }
         let (g3, g4) = (from.pose.theta3 + d3, from.pose.theta4 + d4);
         let r2 = self.linkage.input_link();
-        let carry = grid.filter(|g| {
-            from.age < GRID_RESYNC
-                && d3.abs() <= SERIES_ANGLE
-                && d4.abs() <= SERIES_ANGLE
-                && g.fits(dt, theta2)
-        });
-        let (e2, e2_error, units_error, age, start) = match carry {
-            Some(g) => {
+        let carried = grid
+            .filter(|_| d3.abs() <= SERIES_ANGLE && d4.abs() <= SERIES_ANGLE)
+            .and_then(|g| {
                 // Each turn rounds; the angles' own sums round by half an ulp each; the
                 // station spacing differs from the grid step by the stations' rounding.
                 let e2_error = from.e2_error + (dt - g.step).abs() + (TURN_ROUNDING + 1.0) * EPS;
+                // (Half an ulp of the larger angle is at most that of their sum.)
                 let units_error =
-                    from.units_error + (TURN_ROUNDING + 0.5 * (1.0 + g3.abs().max(g4.abs()))) * EPS;
-                let start = NewtonStart {
-                    theta3: g3,
-                    theta4: g4,
-                    e3: turn(from.e3, d3),
-                    e4: turn(from.e4, d4),
-                    error: r2 * e2_error + (self.k.r3() + self.k.r4()) * units_error,
-                };
-                (g.turn(from.e2), e2_error, units_error, from.age + 1, start)
-            }
-            None => (unit(theta2), 0.0, 0.0, 0, NewtonStart::at(g3, g4)),
-        };
+                    from.units_error + (TURN_ROUNDING + 0.5 * (1.0 + g3.abs() + g4.abs())) * EPS;
+                let error = r2 * e2_error + (self.k.r3() + self.k.r4()) * units_error;
+                (error <= self.drift_budget).then(|| {
+                    let start = NewtonStart {
+                        theta3: g3,
+                        theta4: g4,
+                        e3: turn(from.e3, d3),
+                        e4: turn(from.e4, d4),
+                        error,
+                    };
+                    (g.turn(from.e2), e2_error, units_error, start)
+                })
+            });
+        let (e2, e2_error, units_error, start) =
+            carried.unwrap_or_else(|| (unit(theta2), 0.0, 0.0, NewtonStart::at(g3, g4)));
         let ao4 = self.o24 + r2 * e2;
         self.solves += 1;
         if !self.k.reaches(ao4) {
@@ -304,23 +309,28 @@ impl<'a> Tracer<'a> {
         if run.status != PositionStatus::Converged {
             return Err(run.status);
         }
-        let jump = (run.theta3 - g3).abs().max((run.theta4 - g4).abs());
-        if sign_of(run.e3, run.e4) != sign || jump >= MAX_JUMP {
+        let jump = (run.theta3 - g3).abs() >= MAX_JUMP || (run.theta4 - g4).abs() >= MAX_JUMP;
+        if sign_of(run.e3, run.e4) != sign || jump {
             return Err(run.status);
         }
-        let pose = Pose {
-            theta2,
-            theta3: run.theta3,
-            theta4: run.theta4,
-        };
-        let mut node =
-            Node::new(self.linkage, pose, e2, run.e3, run.e4).ok_or(PositionStatus::Singular)?;
+        let d =
+            ratio_derivatives(self.linkage, e2, run.e3, run.e4).ok_or(PositionStatus::Singular)?;
         // The final small turn of Newton-Raphson and the angles' last sums.
-        let last = (TURN_ROUNDING + 0.5 * (1.0 + run.theta3.abs().max(run.theta4.abs()))) * EPS;
-        node.e2_error = e2_error;
-        node.units_error = if run.fresh { last } else { units_error + last };
-        node.age = age;
-        Ok((node, run.iterations))
+        let last = (TURN_ROUNDING + 0.5 * (1.0 + run.theta3.abs() + run.theta4.abs())) * EPS;
+        *at = Node {
+            pose: Pose {
+                theta2,
+                theta3: run.theta3,
+                theta4: run.theta4,
+            },
+            e2,
+            e3: run.e3,
+            e4: run.e4,
+            d,
+            e2_error,
+            units_error: if run.fresh { last } else { units_error + last },
+        };
+        Ok(run.iterations)
     }
 
     /// Traces from the converged pose `start` to crank angle `theta2_end` (radians; larger
@@ -376,9 +386,8 @@ impl<'a> Tracer<'a> {
             } else {
                 cur.pose.theta2 + dir * step
             };
-            match self.step(&cur, t2, None, sign) {
-                Ok((next, iterations)) => {
-                    cur = next;
+            match self.step(&mut cur, t2, None, sign) {
+                Ok(iterations) => {
                     if iterations <= 3 {
                         h = (h * 2.0).min(opts.max_step);
                     } else if iterations > 6 {
@@ -444,8 +453,7 @@ impl<'a> Tracer<'a> {
                     _ => GridTurn::new(dt),
                 };
                 grid = Some(g);
-                if let Ok((next, _)) = self.step(&cur, t2, Some(&g), sign) {
-                    cur = next;
+                if self.step(&mut cur, t2, Some(&g), sign).is_ok() {
                     poses.push(cur.pose);
                     continue;
                 }
@@ -670,6 +678,69 @@ mod tests {
                 assert_relative_eq!(wrap_pi(p.theta4 - c.theta4), 0.0, epsilon = 1e-10);
             }
         }
+    }
+
+    // Along a long uniform grid the unit vectors are carried by turning them; at every
+    // station their true distance from the freshly evaluated `e(theta)` is within the drift
+    // bound the tracer keeps (plus the library sine's own rounding), the loop closes to
+    // the tolerance, and the budget binds: they are evaluated afresh again and again, each
+    // time before the error they bring into the loop closure exceeds DRIFT_SHARE of the
+    // tolerance.
+    #[test]
+    fn carried_unit_vectors_stay_within_their_drift_bound() {
+        // A double-crank (ground shortest): theta3 and theta4 turn fully, so over two turns
+        // of the crank the angles, and the rounding of their sums, grow.
+        let l = bar(2.0, 7.0, 9.0, 6.0, Assembly::Open);
+        let opts = SweepOptions::default();
+        let mut tracer = Tracer::new(&l, opts);
+        let start = tracer.pose_at(0.0, Assembly::Open).unwrap();
+        let mut node = tracer.node(&start).unwrap();
+        let sign = node.sign();
+        let h = 0.01f64.to_radians();
+        let grid = GridTurn::new(h);
+        let (r2, r3, r4) = (l.input_link(), l.coupler(), l.output_link());
+        let tol = opts.newton.tolerance * l.size();
+        let lib = 2.0 * f64::EPSILON;
+        let (mut fresh, mut carried, mut longest, mut run) = (0, 0, 0, 0);
+        for k in 1..=72_000 {
+            let t2 = k as f64 * h;
+            let before = r2 * node.e2_error + (r3 + r4) * node.units_error;
+            tracer.step(&mut node, t2, Some(&grid), sign).unwrap();
+            if node.e2_error == 0.0 {
+                fresh += 1;
+                longest = longest.max(run);
+                run = 0;
+            } else {
+                carried += 1;
+                run += 1;
+                assert!(before <= tracer.drift_budget, "{before} > budget at {k}");
+            }
+            let p = node.pose;
+            assert!(
+                (node.e2 - unit(p.theta2)).norm() <= node.e2_error + lib,
+                "e2 at {k}"
+            );
+            assert!(
+                (node.e3 - unit(p.theta3)).norm() <= node.units_error + lib,
+                "e3 at {k}"
+            );
+            assert!(
+                (node.e4 - unit(p.theta4)).norm() <= node.units_error + lib,
+                "e4 at {k}"
+            );
+            let residual = crate::kinematics::position::loop_residual(&l, &p).norm();
+            assert!(
+                residual <= tol + 16.0 * f64::EPSILON * l.size(),
+                "residual at {k}"
+            );
+        }
+        assert!(
+            fresh >= 10,
+            "the budget never bound: {fresh} fresh evaluations"
+        );
+        assert!(carried > 20 * fresh, "{carried} carried, {fresh} fresh");
+        assert!(longest > 8, "longest carried run {longest}");
+        assert!(DRIFT_SHARE * tol == tracer.drift_budget);
     }
 
     #[test]
