@@ -11,11 +11,13 @@
 
 use std::f64::consts::TAU;
 use std::hint::black_box;
-use std::path::PathBuf;
 
 use crankwright::{closed_form, sweep, Assembly, CouplerPoint, FourBar, SweepOptions};
 use criterion::{BenchmarkId, Criterion, Throughput};
 use nalgebra::Point2;
+
+mod common;
+use common::{criterion_home, estimates_ns};
 
 /// Crank angles per sweep.
 const POSITIONS: usize = 360;
@@ -99,33 +101,6 @@ fn bench(c: &mut Criterion) {
     group.finish();
 }
 
-/// Criterion's output directory: `$CRITERION_HOME`, else `criterion/` in the target directory
-/// that holds this bench binary (`target/release/deps/position_sweep-*`).
-fn criterion_home() -> Option<PathBuf> {
-    if let Some(h) = std::env::var_os("CRITERION_HOME") {
-        return Some(PathBuf::from(h));
-    }
-    let exe = std::env::current_exe().ok()?;
-    Some(exe.parent()?.parent()?.parent()?.join("criterion"))
-}
-
-/// Median and mean time per iteration (ns) of one benchmark, from criterion's
-/// `estimates.json`.
-fn estimates_ns(home: &std::path::Path, function: &str, name: &str) -> Option<(f64, f64)> {
-    let path = home
-        .join(GROUP)
-        .join(function)
-        .join(name)
-        .join("new")
-        .join("estimates.json");
-    let text = std::fs::read_to_string(path).ok()?;
-    let v: serde_json::Value = serde_json::from_str(&text).ok()?;
-    Some((
-        v["median"]["point_estimate"].as_f64()?,
-        v["mean"]["point_estimate"].as_f64()?,
-    ))
-}
-
 fn report_ratios() {
     let Some(home) = criterion_home() else {
         return;
@@ -133,8 +108,8 @@ fn report_ratios() {
     println!("\nNewton-Raphson sweep vs closed form ({POSITIONS} positions, target ratio <= {TARGET_RATIO}):");
     for (name, _) in linkages() {
         let (Some((nr, nr_mean)), Some((cf, cf_mean))) = (
-            estimates_ns(&home, "newton_sweep", name),
-            estimates_ns(&home, "closed_form", name),
+            estimates_ns(&home, GROUP, "newton_sweep", name),
+            estimates_ns(&home, GROUP, "closed_form", name),
         ) else {
             println!("  {name}: no estimates found under {}", home.display());
             continue;

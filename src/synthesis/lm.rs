@@ -7,6 +7,10 @@
 //! box. Each iteration forms the
 //! Jacobian once and tries damped steps until one lowers the sum of squares.
 //!
+//! The damped system of an iteration is a [`DampedSystem`]: [`DenseNormal`] here (Cholesky on
+//! the full normal matrix), or the same system solved by eliminating one variable per target
+//! in [`super::structured`], in time linear in the number of targets.
+//!
 //! Tuning: `initial_damping` is the starting `lambda`; a successful step divides it by
 //! `damping_down`, a failed one multiplies it by `damping_up`; the solver stops when the
 //! relative decrease of the sum of squares over an iteration falls below `rel_tolerance`, when
@@ -112,39 +116,17 @@ where
         let jt = j.transpose();
         let a = &jt * &j;
         let g = &jt * &r;
-        let n = x.len();
-        // Active set: variables on a bound whose gradient pushes them outwards stay there;
-        // the damped Gauss-Newton system is solved for the others only.
-        let free: Vec<usize> = (0..n)
-            .filter(|&i| {
-                let span = (self.upper[i] - self.lower[i]).abs().max(1e-300);
-                let at_lo = x[i] <= self.lower[i] + 1e-12 * span && g[i] > 0.0;
-                let at_hi = x[i] >= self.upper[i] - 1e-12 * span && g[i] < 0.0;
-                !(at_lo || at_hi)
-            })
-            .collect();
+        let free = free_variables(&x, &g, &self.lower, &self.upper);
         if free.is_empty() {
             self.stalled = true;
             return Ok((state.param(x).residuals(r).cost(cost), None));
         }
-        let nf = free.len();
-        let af = DMatrix::from_fn(nf, nf, |i, j| a[(free[i], free[j])]);
-        let gf = DVector::from_fn(nf, |i, _| g[free[i]]);
-        let diag: Vec<f64> = (0..nf).map(|i| af[(i, i)].max(1e-12)).collect();
+        let normal = DenseNormal::new(&a, &g, &free);
         for _ in 0..self.max_trials {
-            let mut m = af.clone();
-            for i in 0..nf {
-                m[(i, i)] += self.lambda * diag[i];
-            }
-            let Some(chol) = m.cholesky() else {
+            let Some(step) = normal.step(self.lambda) else {
                 self.lambda *= self.damping_up;
                 continue;
             };
-            let sf = chol.solve(&(-&gf));
-            let mut step = DVector::zeros(n);
-            for (k, &i) in free.iter().enumerate() {
-                step[i] = sf[k];
-            }
             let mut trial = &x + &step;
             self.project(&mut trial);
             let rt = problem.apply(&trial)?;
@@ -175,6 +157,77 @@ where
             return TerminationStatus::Terminated(TerminationReason::SolverConverged);
         }
         TerminationStatus::NotTerminated
+    }
+}
+
+/// Smallest entry of Marquardt's scaling `diag(J^T J)`, so that a variable the residuals do
+/// not (yet) depend on is still damped.
+pub const MIN_SCALE: f64 = 1e-12;
+
+/// The variables that take a step, in increasing order: all but those resting on a bound
+/// (within `1e-12` of the bounds' span) with the gradient `g = J^T r` pushing them outwards,
+/// which are held there (the active set of the module docs).
+pub fn free_variables(x: &Params, g: &Params, lower: &Params, upper: &Params) -> Vec<usize> {
+    (0..x.len())
+        .filter(|&i| {
+            let span = (upper[i] - lower[i]).abs().max(1e-300);
+            let at_lo = x[i] <= lower[i] + 1e-12 * span && g[i] > 0.0;
+            let at_hi = x[i] >= upper[i] - 1e-12 * span && g[i] < 0.0;
+            !(at_lo || at_hi)
+        })
+        .collect()
+}
+
+/// The damped Gauss-Newton system of one Levenberg-Marquardt iteration, solvable for any
+/// damping: the normal matrix `H = J^T J` and gradient `g = J^T r` restricted to the free
+/// variables (see [`free_variables`]).
+pub trait DampedSystem {
+    /// The step `delta` of all variables that solves `(H + lambda D) delta = -g` on the free
+    /// ones, with Marquardt's scaling `D = diag(max(H_ii, MIN_SCALE))`, and is zero on the
+    /// held ones; `None` when the damped matrix is not numerically positive definite (the
+    /// solver then raises the damping).
+    fn step(&self, lambda: f64) -> Option<Params>;
+}
+
+/// [`DampedSystem`] from a dense normal matrix, solved by Cholesky factorisation: cost
+/// cubic in the number of free variables.
+#[derive(Debug, Clone)]
+pub struct DenseNormal {
+    n: usize,
+    free: Vec<usize>,
+    a: DMatrix<f64>,
+    g: DVector<f64>,
+    scale: Vec<f64>,
+}
+
+impl DenseNormal {
+    /// The system of the normal matrix `a = J^T J` and gradient `g = J^T r` on the variables
+    /// `free` (indices into `g`).
+    pub fn new(a: &DMatrix<f64>, g: &Params, free: &[usize]) -> Self {
+        let nf = free.len();
+        let af = DMatrix::from_fn(nf, nf, |i, j| a[(free[i], free[j])]);
+        Self {
+            n: g.len(),
+            free: free.to_vec(),
+            scale: (0..nf).map(|i| af[(i, i)].max(MIN_SCALE)).collect(),
+            a: af,
+            g: DVector::from_fn(nf, |i, _| g[free[i]]),
+        }
+    }
+}
+
+impl DampedSystem for DenseNormal {
+    fn step(&self, lambda: f64) -> Option<Params> {
+        let mut m = self.a.clone();
+        for (i, d) in self.scale.iter().enumerate() {
+            m[(i, i)] += lambda * d;
+        }
+        let sf = m.cholesky()?.solve(&(-&self.g));
+        let mut step = DVector::zeros(self.n);
+        for (k, &i) in self.free.iter().enumerate() {
+            step[i] = sf[k];
+        }
+        Some(step)
     }
 }
 

@@ -27,6 +27,7 @@
 
 pub mod lm;
 pub mod output;
+pub mod structured;
 
 use std::cell::{Cell, RefCell};
 use std::collections::BTreeMap;
