@@ -169,7 +169,8 @@ const MAX_JUMP: f64 = 0.5;
 /// Each step predicts the next position from a second-order Taylor expansion of `theta3`
 /// and `theta4` in `theta2` (velocity and acceleration solves with the position's own
 /// Jacobian) and corrects it by Newton-Raphson, which then usually needs a single
-/// iteration; see [`solve_position`] for the early stop on quadratic convergence.
+/// iteration; see [`solve_position`](super::position::solve_position) for the early stop on
+/// quadratic convergence.
 #[derive(Debug, Clone)]
 pub struct Tracer<'a> {
     linkage: &'a FourBar,
@@ -740,7 +741,7 @@ mod tests {
         );
         assert!(carried > 20 * fresh, "{carried} carried, {fresh} fresh");
         assert!(longest > 8, "longest carried run {longest}");
-        assert!(DRIFT_SHARE * tol == tracer.drift_budget);
+        assert_relative_eq!(tracer.drift_budget, DRIFT_SHARE * tol, max_relative = 1e-15);
     }
 
     #[test]
