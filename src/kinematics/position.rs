@@ -145,8 +145,9 @@ pub(crate) const SHORT_SERIES_ANGLE: f64 = 1.0 / 8192.0;
 /// The unit vector `u` turned counter-clockwise by the angle `d`, `R(d) u`. For
 /// `|d| <= SERIES_ANGLE` the sine and cosine of `d` come from their Taylor series (a few
 /// multiply-adds instead of a library call, two terms each up to [`SHORT_SERIES_ANGLE`]);
-/// beyond, from `f64::sin_cos`.
-#[inline]
+/// beyond, from `f64::sin_cos`. (Always inlined: a continuation step makes four turns, and
+/// as calls they cost as much again.)
+#[inline(always)]
 pub(crate) fn turn(u: Vector2<f64>, d: f64) -> Vector2<f64> {
     let (s, c) = if d.abs() <= SHORT_SERIES_ANGLE {
         let d2 = d * d;
