@@ -1,6 +1,8 @@
 //! Kinematic analysis of a given linkage: positions, rates, range of motion and sweeps.
 
 pub mod analysis;
+#[cfg(test)]
+mod fixtures;
 pub mod position;
 pub mod range;
 pub mod rates;
