@@ -117,6 +117,7 @@ mod tests {
                 assert!(((p.b - l.output_pivot()).norm() - l.output_link()).abs() < 1e-12);
                 let lib = position_at(&l, theta2, &NewtonOptions::default()).unwrap();
                 assert!(wrap_pi(lib.theta4 - p.theta4).abs() < 1e-10);
+                assert!(wrap_pi(lib.theta3 - p.theta3).abs() < 1e-10);
             }
         }
         let l = double_rocker();

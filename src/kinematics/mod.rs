@@ -6,4 +6,5 @@ mod fixtures;
 pub mod position;
 pub mod range;
 pub mod rates;
+pub mod statics;
 pub mod sweep;
