@@ -325,7 +325,7 @@ impl Core {
             .all(|(u, v)| cross(v - u, q - u) * s > 0.0)
     }
     /// The core moved into the frame with origin `o` and direction `theta`.
-    fn to_global(&self, o: Point2<f64>, theta: f64) -> Self {
+    fn placed(&self, o: Point2<f64>, theta: f64) -> Self {
         let r = Rotation2::new(theta);
         let mut c = *self;
         for q in &mut c.p {
@@ -436,11 +436,11 @@ impl<'a> Geometry<'a> {
 
     fn global(&self, body: Body, pose: &Pose) -> Core {
         let (o, t) = body.frame(self.linkage, pose);
-        self.local(body).to_global(o, t)
+        self.local(body).placed(o, t)
     }
 
     /// `q` (global) in the frame of `body` at `pose`.
-    fn into_frame(&self, body: Body, pose: &Pose, q: Point2<f64>) -> Point2<f64> {
+    fn in_frame(&self, body: Body, pose: &Pose, q: Point2<f64>) -> Point2<f64> {
         let (o, t) = body.frame(self.linkage, pose);
         Point2::from(Rotation2::new(-t) * (q - o))
     }
@@ -477,8 +477,8 @@ impl<'a> Geometry<'a> {
             .zip(mover.1.vertices())
             .any(|(a, b)| {
                 let chord = Core::segment(
-                    self.into_frame(body, from, *a),
-                    self.into_frame(body, to, *b),
+                    self.in_frame(body, from, *a),
+                    self.in_frame(body, to, *b),
                 );
                 core_distance(&core, &chord) <= allowance
             })
