@@ -28,9 +28,6 @@ pub enum KinematicsError {
         /// The layer both were given.
         layer: u8,
     },
-    /// A Monte Carlo study asked for no samples.
-    #[error("samples must be at least 1, got 0")]
-    NoSamples,
 }
 
 /// `value` if it is finite and not negative, else [`KinematicsError::NotNonNegative`].

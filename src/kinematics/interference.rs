@@ -476,10 +476,8 @@ impl<'a> Geometry<'a> {
             .iter()
             .zip(mover.1.vertices())
             .any(|(a, b)| {
-                let chord = Core::segment(
-                    self.in_frame(body, from, *a),
-                    self.in_frame(body, to, *b),
-                );
+                let chord =
+                    Core::segment(self.in_frame(body, from, *a), self.in_frame(body, to, *b));
                 core_distance(&core, &chord) <= allowance
             })
     }

@@ -11,3 +11,4 @@ pub mod range;
 pub mod rates;
 pub mod statics;
 pub mod sweep;
+pub mod tolerance;
