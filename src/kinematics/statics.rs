@@ -286,6 +286,30 @@ mod tests {
         assert_eq!(n, 17);
     }
 
+    proptest::proptest! {
+        // The advantage by virtual work against the angle form on random linkages, away from
+        // both singular positions (|sin(mu)|, |sin(nu)| > 0.02).
+        #[test]
+        fn advantage_matches_the_angle_form_on_random_linkages(
+            r1 in 0.5..10.0f64, r2 in 0.5..10.0f64, r3 in 0.5..10.0f64, r4 in 0.5..10.0f64,
+            t1 in -3.0..3.0f64, open in proptest::bool::ANY, phi in 0.0..TAU,
+        ) {
+            let asm = if open { Assembly::Open } else { Assembly::Crossed };
+            let o4 = Point2::new(r1 * t1.cos(), r1 * t1.sin());
+            let l = FourBar::new(Point2::origin(), o4, r2, r3, r4, CouplerPoint::default(), asm)
+                .unwrap();
+            let t2 = t1 + phi;
+            let Some(at) = place(&l, t2) else { return Ok(()) };
+            let mu = vertex_angle(r3, r4, (at.a - l.output_pivot()).norm());
+            let nu = vertex_angle(r2, r3, (at.b - l.input_pivot()).norm());
+            proptest::prop_assume!(mu.sin() > 0.02 && nu.sin() > 0.02);
+            let pose = position_at(&l, t2, &NewtonOptions::default()).unwrap();
+            let ma = mechanical_advantage(&l, &pose).value();
+            let textbook = r4 * mu.sin() / (r2 * nu.sin());
+            proptest::prop_assert!((ma.abs() / textbook - 1.0).abs() < 1e-8, "{} vs {}", ma, textbook);
+        }
+    }
+
     // Virtual work by finite differences: the input torque for an output torque, a fixed force
     // on the coupler point and a force resisting the path equals the work done on the load per
     // unit crank rotation, from central differences of the fixture's closed-form positions

@@ -739,6 +739,42 @@ mod tests {
         assert!(worst > 0.0);
     }
 
+    proptest::proptest! {
+        // The analytic sensitivity against central differences of the fixture's closed form
+        // on random linkages and crank angles (both references), away from toggles
+        // (|sin(theta3 - theta4)| > 0.05) where the derivatives are unbounded.
+        #[test]
+        fn sensitivity_matches_differences_on_random_linkages(
+            o2x in -5.0..5.0f64, o2y in -5.0..5.0f64, r1 in 1.0..10.0f64, t1 in -3.0..3.0f64,
+            r2 in 0.5..10.0f64, r3 in 0.5..10.0f64, r4 in 0.5..10.0f64,
+            p in -5.0..5.0f64, q in -5.0..5.0f64, open in proptest::bool::ANY,
+            phi in 0.0..std::f64::consts::TAU,
+        ) {
+            let o2 = Point2::new(o2x, o2y);
+            let asm = if open { crate::linkage::Assembly::Open } else { crate::linkage::Assembly::Crossed };
+            let l = FourBar::new(o2, o2 + r1 * unit(t1), r2, r3, r4, CouplerPoint { p, q }, asm)
+                .unwrap();
+            let at = place(&l, phi + l.ground_angle());
+            proptest::prop_assume!(at.is_some_and(|a| (a.theta3 - a.theta4).sin().abs() > 0.05));
+            let h = 1e-6;
+            for r in [CrankReference::Frame, CrankReference::GroundLine] {
+                let s = sensitivity(&l, phi + l.ground_angle() - r.origin(&l), r).unwrap();
+                for dim in Dimension::ALL {
+                    let k = dim.index();
+                    let step = |sign: f64| {
+                        let mut d = dimensions_of(&l);
+                        d[k] += sign * h;
+                        closed_outputs(&with_dimensions(&l, &d).unwrap(), &l, phi, r)
+                    };
+                    let fd = output_error(&step(1.0), &step(-1.0)) / (2.0 * h);
+                    let an = s.jacobian.column(k);
+                    let scale = an.abs().max().max(1.0);
+                    proptest::prop_assert!((fd - an).abs().max() < 1e-5 * scale, "{:?}: {} vs {}", dim, fd, an);
+                }
+            }
+        }
+    }
+
     // The clearance map against differences of the exact effective linkage.
     #[test]
     fn clearance_map_matches_finite_differences() {
