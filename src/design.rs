@@ -122,6 +122,9 @@ pub fn load_designs(path: &Path) -> Result<Vec<Design>, InputError> {
 /// As [`load_designs`].
 pub fn parse_designs(path: &Path, text: &str) -> Result<Vec<Design>, InputError> {
     let value: serde_yaml::Value = parse_yaml(path, text)?;
+    if let Some(e) = crate::input::wrong_kind(path, &value, crate::input::FileKind::Design) {
+        return Err(e);
+    }
     // Parse the text again as the typed structure so that errors keep their line and column.
     let raws: Vec<DesignFile> = if value.is_sequence() {
         parse_yaml(path, text)?

@@ -258,16 +258,18 @@ fn check_transmission(path: &Path, limits: &Limits) -> Result<(), InputError> {
         (None, None) => return Ok(()),
     };
     let best = best_full_turn_transmission(ratio);
+    // The numbers as the user gave them, without the round trip's float noise.
+    let r = short(ratio);
     if mt > best + 1e-9 {
         return Err(invalid(
             path,
             "limits.min_transmission",
             format!(
-                "{} deg with crank: full-turn and links within a ratio of {ratio} ({source}): \
+                "{} deg with crank: full-turn and links within a ratio of {r} ({source}): \
                  no four-bar can meet this; a crank that turns fully with links within that \
-                 ratio has a worst transmission angle of at most 2 atan({ratio}) - 90 = {:.3} \
+                 ratio has a worst transmission angle of at most 2 atan({r}) - 90 = {:.3} \
                  deg. Lower min_transmission, allow a larger ratio, or set crank: any",
-                mt.to_degrees(),
+                short(mt.to_degrees()),
                 best.to_degrees()
             ),
         ));

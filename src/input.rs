@@ -40,6 +40,17 @@ pub enum InputError {
         /// What is wrong and what is expected.
         message: String,
     },
+    /// The file is of the other kind: a scenario given where a design is read, or the
+    /// reverse.
+    #[error("{path}: this is {}, not {}; {}", found.described(), expected.described(), found.advice(path))]
+    WrongKind {
+        /// The file.
+        path: PathBuf,
+        /// The kind it looks like.
+        found: FileKind,
+        /// The kind the command reads.
+        expected: FileKind,
+    },
     /// A field has a value that parses but is not acceptable.
     #[error("{path}: {field}: {message}")]
     Invalid {
@@ -50,6 +61,101 @@ pub enum InputError {
         /// What is wrong and what is expected.
         message: String,
     },
+}
+
+/// The two kinds of YAML file the project reads.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum FileKind {
+    /// A design file: one linkage or a list of them (`check`, `sweep`).
+    Design,
+    /// A scenario file: a task with limits and search settings (`synth`).
+    Scenario,
+}
+
+impl FileKind {
+    /// Top-level keys only this kind of file has.
+    fn own_keys(self) -> &'static [&'static str] {
+        match self {
+            FileKind::Design => &[
+                "input_pivot",
+                "output_pivot",
+                "input_link",
+                "coupler",
+                "output_link",
+                "coupler_point",
+                "assembly",
+            ],
+            FileKind::Scenario => &["task", "limits", "search"],
+        }
+    }
+
+    /// The kind with an article, for messages.
+    fn described(self) -> &'static str {
+        match self {
+            FileKind::Design => "a design file (a linkage's dimensions)",
+            FileKind::Scenario => "a scenario file (a task for `synth`)",
+        }
+    }
+
+    /// What to do with a file of this kind.
+    fn advice(self, path: &Path) -> String {
+        match self {
+            FileKind::Design => format!(
+                "`synth` reads a scenario; analyse this design with `crankwright check {0}` or `crankwright sweep {0}`",
+                path.display()
+            ),
+            FileKind::Scenario => format!(
+                "`check` and `sweep` read a design (such as the designs.yaml `synth` writes); design from this scenario with `crankwright synth {}`",
+                path.display()
+            ),
+        }
+    }
+
+    /// The kind a parsed document looks like: the kind whose own keys it has at the top
+    /// (of its first entry, for a list) while having none of the other's.
+    fn of(value: &serde_yaml::Value) -> Option<Self> {
+        let map = match value {
+            serde_yaml::Value::Sequence(items) => items.first()?.as_mapping()?,
+            other => other.as_mapping()?,
+        };
+        let has = |k: FileKind| {
+            k.own_keys()
+                .iter()
+                .any(|key| map.contains_key(serde_yaml::Value::from(*key)))
+        };
+        match (has(FileKind::Design), has(FileKind::Scenario)) {
+            (true, false) => Some(FileKind::Design),
+            (false, true) => Some(FileKind::Scenario),
+            _ => None,
+        }
+    }
+}
+
+/// [`InputError::WrongKind`] when `value` (the parsed document of `path`) looks like a file
+/// of another kind than `expected`.
+pub fn wrong_kind(
+    path: &Path,
+    value: &serde_yaml::Value,
+    expected: FileKind,
+) -> Option<InputError> {
+    let found = FileKind::of(value)?;
+    (found != expected).then(|| InputError::WrongKind {
+        path: path.to_path_buf(),
+        found,
+        expected,
+    })
+}
+
+/// Refuses YAML `text` that looks like a file of another kind than `expected` (see
+/// [`wrong_kind`]); text that does not parse is left to the typed parse, which says where.
+///
+/// # Errors
+/// [`InputError::WrongKind`].
+pub fn check_kind(path: &Path, text: &str, expected: FileKind) -> Result<(), InputError> {
+    match serde_yaml::from_str::<serde_yaml::Value>(text) {
+        Ok(v) => wrong_kind(path, &v, expected).map_or(Ok(()), Err),
+        Err(_) => Ok(()),
+    }
 }
 
 fn location(line: Option<usize>, column: Option<usize>) -> String {
@@ -124,7 +230,35 @@ pub fn parse_yaml<T: serde::de::DeserializeOwned>(
     path: &Path,
     text: &str,
 ) -> Result<T, InputError> {
-    serde_yaml::from_str(text).map_err(|e| yaml_error(path, &e))
+    serde_yaml::from_str(text).map_err(|e| yaml_error_in(path, text, &e))
+}
+
+/// Message for a tab in the indentation of line `line` (1-based) of `text`, with the tab's
+/// 1-based column; YAML forbids tabs there, and the parser only says it found a character
+/// that cannot start a token.
+fn tab_indent(text: &str, line: usize) -> Option<(usize, String)> {
+    let l = text.lines().nth(line.checked_sub(1)?)?;
+    let indent = &l[..l.len() - l.trim_start_matches([' ', '\t']).len()];
+    let col = indent.find('\t')? + 1;
+    Some((
+        col,
+        "tabs are not allowed for indentation in YAML, use spaces".to_owned(),
+    ))
+}
+
+/// Converts a serde_yaml error on `text` into [`InputError::Parse`], saying so plainly when
+/// the cause is a tab in the indentation.
+pub fn yaml_error_in(path: &Path, text: &str, e: &serde_yaml::Error) -> InputError {
+    let tab = e.location().and_then(|l| tab_indent(text, l.line()));
+    match (tab, e.location()) {
+        (Some((column, message)), Some(l)) => InputError::Parse {
+            path: path.to_path_buf(),
+            line: Some(l.line()),
+            column: Some(column),
+            message,
+        },
+        _ => yaml_error(path, e),
+    }
 }
 
 /// Converts a serde_yaml error into [`InputError::Parse`].
@@ -326,6 +460,51 @@ mod tests {
         let m = "unknown field `coupler_pont`, expected one of `coupler`, `coupler_point`, `units`";
         assert_eq!(suggest(m).as_deref(), Some("coupler_point"));
         assert_eq!(edit_distance("kitten", "sitting"), 3);
+    }
+
+    // YAML forbids tabs in indentation (YAML 1.2, section 6.1: "tab characters must not
+    // be used in indentation"); the parser's own words do not say so.
+    #[test]
+    fn a_tab_in_the_indentation_is_named() {
+        for (text, line, column) in [("a:\n\tb: 1\n", 2, 1), ("a:\n  b:\n  \tc: 1\n", 3, 3)] {
+            let e = parse_yaml::<serde_yaml::Value>(Path::new("t.yaml"), text).unwrap_err();
+            assert_eq!(
+                e.to_string(),
+                format!("t.yaml:{line}:{column}: tabs are not allowed for indentation in YAML, use spaces")
+            );
+        }
+        // A tab after a key's colon is not indentation.
+        assert!(parse_yaml::<serde_yaml::Value>(Path::new("t.yaml"), "a:\t1\n").is_ok());
+    }
+
+    #[test]
+    fn the_other_kind_of_file_is_recognised() {
+        let design = "input_pivot: [0, 0]\noutput_pivot: [1, 0]\ninput_link: 1\n";
+        let scenario = "task:\n  path:\n    points: [[0, 0], [1, 1]]\n";
+        let p = Path::new("f.yaml");
+        let e = check_kind(p, scenario, FileKind::Design)
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("a scenario file") && e.contains("crankwright synth f.yaml"),
+            "{e}"
+        );
+        let e = check_kind(p, design, FileKind::Scenario)
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("a design file") && e.contains("crankwright check f.yaml"),
+            "{e}"
+        );
+        let list = format!("- {}", design.replace('\n', "\n  "));
+        assert!(check_kind(p, &list, FileKind::Scenario).is_err());
+        for ok in [(design, FileKind::Design), (scenario, FileKind::Scenario)] {
+            assert!(check_kind(p, ok.0, ok.1).is_ok());
+        }
+        // Neither kind, both kinds, or not YAML: left to the typed parse.
+        for text in ["name: x\n", "task: 1\ncoupler: 2\n", "[unclosed"] {
+            assert!(check_kind(p, text, FileKind::Design).is_ok(), "{text}");
+        }
     }
 
     #[test]

@@ -13,8 +13,12 @@ use clap::{Parser, Subcommand};
 use indicatif::{ProgressBar, ProgressStyle};
 
 use crankwright::fsutil::write_atomic;
-use crankwright::report::check::CheckReport;
-use crankwright::report::table::{rows_to_csv, sweep_rows};
+use crankwright::kinematics::analysis::Turn;
+use crankwright::report::check::{CheckOptions, CheckReport};
+use crankwright::report::deg_wrapped;
+use crankwright::report::table::{
+    rows_to_csv, sweep_rows, SweepRow, ANGLES, SWEEP_FORMAT, SWEEP_FORMAT_VERSION,
+};
 use crankwright::report::{read_results, write_report, REPORT_FILE};
 use crankwright::scenario::{load_scenario, MAX_STARTS};
 use crankwright::synthesis::output::{design_of, write_results, Summary};
@@ -47,25 +51,35 @@ struct Cli {
 #[derive(Subcommand, Debug)]
 enum Command {
     /// Summarise a design: Grashof class, range of motion, toggles, transmission angle,
-    /// output swing and time ratio.
+    /// the output's limit positions and time ratio. Crank and output angles are degrees
+    /// counter-clockwise from the ground line O2 -> O4.
     Check {
         /// Design file (YAML).
         design: PathBuf,
         /// Which design of a list (1-based), e.g. of a designs.yaml written by `synth`.
         #[arg(long, default_value_t = 1)]
         index: usize,
+        /// Crank speed, revolutions per minute (positive counter-clockwise): the running
+        /// direction names the slower and faster strokes of the time ratio.
+        #[arg(long, default_value_t = 60.0, allow_negative_numbers = true)]
+        speed: f64,
+        /// Working range of the crank: transmission angle extremes over the crank's motion
+        /// from FROM counter-clockwise to TO, degrees from the ground line.
+        #[arg(long = "crank-range", num_args = 2, value_names = ["FROM", "TO"], allow_negative_numbers = true)]
+        crank_range: Option<Vec<f64>>,
         /// Print JSON instead of text.
         #[arg(long)]
         json: bool,
     },
-    /// Tabulate positions, transmission angle and rates over the crank's motion.
+    /// Tabulate positions, transmission angle and rates over the crank's motion, at crank
+    /// angles from the ground line O2 -> O4.
     Sweep {
         /// Design file (YAML).
         design: PathBuf,
         /// Which design of a list (1-based).
         #[arg(long, default_value_t = 1)]
         index: usize,
-        /// Crank angle step, degrees.
+        /// Crank angle step, degrees (rows at multiples of it from the ground line).
         #[arg(long, default_value_t = 5.0)]
         step: f64,
         /// Crank speed, revolutions per minute (positive counter-clockwise).
@@ -74,7 +88,7 @@ enum Command {
         /// Also write the table as CSV to this file.
         #[arg(long)]
         csv: Option<PathBuf>,
-        /// Print JSON `{"rows": [...]}` instead of text.
+        /// Print JSON (`format`, `format_version`, `angles`, `rows`) instead of text.
         #[arg(long)]
         json: bool,
     },
@@ -295,10 +309,36 @@ fn run(cli: Cli) -> anyhow::Result<ExitCode> {
         Command::Check {
             design,
             index,
+            speed,
+            crank_range,
             json,
         } => {
+            if !speed.is_finite() {
+                return Err(
+                    Failure::Usage(format!("--speed {speed}: expected a finite rpm")).into(),
+                );
+            }
+            let working_range = match crank_range.as_deref() {
+                None => None,
+                Some(&[from, to]) if from.is_finite() && to.is_finite() && (from - to).abs() > 0.0 => {
+                    Some((from, to))
+                }
+                Some(v) => {
+                    return Err(Failure::Usage(format!(
+                        "--crank-range {}: expected two different finite crank angles, degrees from the ground line",
+                        v.iter().map(|x| x.to_string()).collect::<Vec<_>>().join(" ")
+                    ))
+                    .into())
+                }
+            };
             let d = pick(&design, index)?;
-            let report = CheckReport::new(&d);
+            let report = CheckReport::with(
+                &d,
+                &CheckOptions {
+                    speed_rpm: speed,
+                    working_range,
+                },
+            );
             if json {
                 outln!("{}", serde_json::to_string_pretty(&report)?);
             } else {
@@ -309,6 +349,14 @@ fn run(cli: Cli) -> anyhow::Result<ExitCode> {
                     "{}: the linkage cannot be assembled at any crank angle",
                     design.display()
                 );
+                return Ok(ExitCode::from(1));
+            }
+            if let Some(p) = report
+                .working_range
+                .as_ref()
+                .and_then(|w| w.problem.as_ref())
+            {
+                eprintln!("{}: --crank-range: {p}", design.display());
                 return Ok(ExitCode::from(1));
             }
             Ok(ExitCode::SUCCESS)
@@ -334,41 +382,8 @@ fn run(cli: Cli) -> anyhow::Result<ExitCode> {
             }
             let d = pick(&design, index)?;
             let rows = sweep_rows(&d.linkage, step, speed);
-            if let Some(path) = csv {
-                write_atomic(&path, rows_to_csv(&rows, &d.units).as_bytes())
-                    .with_context(|| format!("writing {}", path.display()))?;
-            }
-            if json {
-                outln!(
-                    "{}",
-                    serde_json::to_string_pretty(&serde_json::json!({ "rows": rows }))?
-                );
-            } else {
-                outln!(
-                    "{:>9} {:>9} {:>9} {:>8} {:>11} {:>11} {:>10} {:>10} {:>11} {:>11}",
-                    "theta2",
-                    "theta3",
-                    "theta4",
-                    "mu",
-                    "cx",
-                    "cy",
-                    "omega3",
-                    "omega4",
-                    "alpha3",
-                    "alpha4"
-                );
-                for r in &rows {
-                    // "toggle" where the rates are unbounded.
-                    let [w3, w4, a3, a4] = r
-                        .rates()
-                        .map(|v| v.map_or("toggle".to_string(), |v| format!("{v:.4}")));
-                    outln!(
-                        "{:>9.3} {:>9.3} {:>9.3} {:>8.3} {:>11.4} {:>11.4} {w3:>10} {w4:>10} {a3:>11} {a4:>11}",
-                        r.theta2, r.theta3, r.theta4, r.mu, r.cx, r.cy
-                    );
-                }
-            }
-            // With --json too: no row at all means the design fails its basic requirement.
+            // No row at all means the design fails its basic requirement: say so before
+            // printing or writing an empty table.
             if rows.is_empty() {
                 if CheckReport::new(&d).assembles {
                     eprintln!(
@@ -383,9 +398,81 @@ fn run(cli: Cli) -> anyhow::Result<ExitCode> {
                 }
                 return Ok(ExitCode::from(1));
             }
+            if let Some(path) = csv {
+                write_atomic(&path, rows_to_csv(&rows, &d.units).as_bytes())
+                    .with_context(|| format!("writing {}", path.display()))?;
+            }
+            if json {
+                outln!(
+                    "{}",
+                    serde_json::to_string_pretty(&serde_json::json!({
+                        "format": SWEEP_FORMAT,
+                        "format_version": SWEEP_FORMAT_VERSION,
+                        "angles": ANGLES,
+                        "units": d.units,
+                        "ground_line_global_deg": deg_wrapped(d.linkage.ground_angle()),
+                        "rows": rows,
+                    }))?
+                );
+            } else {
+                print_sweep(&d, &rows, speed)?;
+            }
             Ok(ExitCode::SUCCESS)
         }
     }
+}
+
+/// The sweep table as text: a line stating the angles' reference, then one line per row
+/// under a header, with a line naming each branch of a rocking input before its rows.
+fn print_sweep(d: &Design, rows: &[SweepRow], speed: f64) -> anyhow::Result<()> {
+    outln!(
+        "# angles: degrees counter-clockwise from the ground line O2 -> O4 (which points {:.3} deg from +x), in [0, 360); mu at B between coupler and output",
+        deg_wrapped(d.linkage.ground_angle())
+    );
+    outln!(
+        "# coupler point in {}; rates for the crank at {} rpm ({}), rad/s and rad/s^2",
+        d.units,
+        crankwright::input::short(speed.abs()),
+        Turn::of_sign(speed).name()
+    );
+    let rocking = !CheckReport::new(d).crank_turns_fully;
+    outln!(
+        "{:>9} {:>9} {:>9} {:>8} {:>11} {:>11} {:>10} {:>10} {:>11} {:>11}",
+        "crank",
+        "coupler",
+        "output",
+        "mu",
+        "x",
+        "y",
+        "w_coupler",
+        "w_output",
+        "a_coupler",
+        "a_output"
+    );
+    let mut branch = 0;
+    for r in rows {
+        if rocking && r.branch != branch {
+            branch = r.branch;
+            outln!(
+                "# branch {branch}: the crank rocks; rows in counter-clockwise order of the crank"
+            );
+        }
+        // "toggle" where the rates are unbounded.
+        let [w3, w4, a3, a4] = r
+            .rates()
+            .map(|v| v.map_or("toggle".to_string(), |v| format!("{v:.4}")));
+        let a = &r.angles;
+        outln!(
+            "{:>9.3} {:>9.3} {:>9.3} {:>8.3} {:>11.4} {:>11.4} {w3:>10} {w4:>10} {a3:>11} {a4:>11}",
+            a.crank_from_ground_deg,
+            a.coupler_from_ground_deg,
+            a.output_from_ground_deg,
+            a.transmission_deg,
+            r.coupler_point_x,
+            r.coupler_point_y
+        );
+    }
+    Ok(())
 }
 
 /// Last resort: a panic is a bug, never the user's fault; say so on one line instead of
@@ -417,6 +504,20 @@ fn say(args: std::fmt::Arguments) -> anyhow::Result<()> {
     }
 }
 
+/// An error with its causes on one line, leaving out a cause whose text the message before
+/// it already holds (an error that prints its source, such as "cannot read: ...").
+fn error_text(err: &anyhow::Error) -> String {
+    let mut text = err.to_string();
+    for cause in err.chain().skip(1) {
+        let c = cause.to_string();
+        if !text.contains(&c) {
+            text.push_str(": ");
+            text.push_str(&c);
+        }
+    }
+    text
+}
+
 fn main() -> ExitCode {
     install_panic_hook();
     let cli = match Cli::try_parse() {
@@ -430,11 +531,7 @@ fn main() -> ExitCode {
     match run(cli) {
         Ok(code) => code,
         Err(err) => {
-            eprint!("error: {err}");
-            for cause in err.chain().skip(1) {
-                eprint!(": {cause}");
-            }
-            eprintln!();
+            eprintln!("error: {}", error_text(&err));
             if err.downcast_ref::<Failure>().is_some() {
                 ExitCode::from(2)
             } else {

@@ -384,6 +384,7 @@ pub fn load_scenario(path: &Path) -> Result<Scenario, InputError> {
 /// # Errors
 /// As [`load_scenario`].
 pub fn parse_scenario(path: &Path, text: &str) -> Result<Scenario, InputError> {
+    crate::input::check_kind(path, text, crate::input::FileKind::Scenario)?;
     let raw: ScenarioFile = parse_yaml(path, text)?;
     check_scenario(path, raw).map_err(|e| crate::input::with_location(e, text))
 }
@@ -753,7 +754,7 @@ fn check_limits(c: &Checker, l: &LimitsFile) -> Result<Limits, InputError> {
                 "limits.ground_angle",
                 format!(
                     "{} deg contradicts the fixed pivots, which give {:.6} deg",
-                    g.to_degrees(),
+                    crate::input::short(g.to_degrees()),
                     actual.to_degrees()
                 ),
             ));

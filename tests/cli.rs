@@ -181,7 +181,7 @@ fn check_text_and_json_agree_with_hand_formulas() {
     let (mu_min, mu_max) = (mu(r1 - r2), mu(r1 + r2));
     assert!(
         text.stdout.contains(&format!(
-            "min {mu_min:.3} deg at crank 0.000 deg, max {mu_max:.3} deg"
+            "mu min {mu_min:.3} deg at crank 0.000 deg, max {mu_max:.3} deg at crank 180.000 deg"
         )),
         "{}",
         text.stdout
@@ -195,34 +195,34 @@ fn check_text_and_json_agree_with_hand_formulas() {
     assert_eq!(v["assembles"], true);
     assert_relative_eq!(v["ground_link"].as_f64().unwrap(), r1, epsilon = 1e-12);
     assert_relative_eq!(
-        v["transmission"]["min"].as_f64().unwrap(),
+        v["transmission"]["min_deg"].as_f64().unwrap(),
         mu_min,
         epsilon = 1e-6
     );
     assert_relative_eq!(
-        v["transmission"]["max"].as_f64().unwrap(),
+        v["transmission"]["max_deg"].as_f64().unwrap(),
         mu_max,
         epsilon = 1e-6
     );
     // Time ratio: the crank turns 180 + beta one way and 180 - beta the other, beta the
     // angle between its two limit positions (crank and coupler in line, |O2 B| = r3 +- r2).
     let tr = &v["time_ratio"];
-    let (fwd, back) = (
-        tr["forward_crank"].as_f64().unwrap(),
-        tr["return_crank"].as_f64().unwrap(),
+    let (slow, fast) = (
+        tr["slower"]["crank_rotation_deg"].as_f64().unwrap(),
+        tr["faster"]["crank_rotation_deg"].as_f64().unwrap(),
     );
-    assert_relative_eq!(fwd + back, 360.0, epsilon = 1e-9);
+    assert_relative_eq!(slow + fast, 360.0, epsilon = 1e-9);
     let limit = |d: f64| {
         ((d * d + r1 * r1 - r4 * r4) / (2.0 * d * r1))
             .acos()
             .to_degrees()
     };
     let beta = limit(r3 - r2) - limit(r3 + r2);
-    assert_relative_eq!(fwd.max(back), 180.0 + beta, epsilon = 1e-6);
+    assert_relative_eq!(slow, 180.0 + beta, epsilon = 1e-6);
     // The report rounds the two crank rotations to 1e-9 degree, not the ratio.
     assert_relative_eq!(
         tr["ratio"].as_f64().unwrap(),
-        fwd / back,
+        slow / fast,
         max_relative = 1e-10
     );
     assert!(v["caution"]
@@ -231,6 +231,24 @@ fn check_text_and_json_agree_with_hand_formulas() {
         .contains("Kinematic design only"));
 }
 
+/// The keys of a `sweep --json` row (version 2).
+const ROW_KEYS: [&str; 14] = [
+    "branch",
+    "crank_from_ground_deg",
+    "coupler_from_ground_deg",
+    "output_from_ground_deg",
+    "transmission_deg",
+    "coupler_point_x",
+    "coupler_point_y",
+    "coupler_rate_rad_s",
+    "output_rate_rad_s",
+    "coupler_accel_rad_s2",
+    "output_accel_rad_s2",
+    "crank_global_deg",
+    "coupler_global_deg",
+    "output_global_deg",
+];
+
 #[test]
 fn sweep_json_rows_have_exactly_the_documented_keys() {
     let cli = Cli::new();
@@ -238,13 +256,23 @@ fn sweep_json_rows_have_exactly_the_documented_keys() {
     r.expect_code(0);
     let v = r.json();
     let top: Vec<&String> = v.as_object().expect("an object").keys().collect();
-    assert_eq!(top, ["rows"]);
+    assert_eq!(
+        top,
+        [
+            "angles",
+            "format",
+            "format_version",
+            "ground_line_global_deg",
+            "rows",
+            "units"
+        ]
+    );
+    assert_eq!(v["format"], "crankwright sweep");
+    assert_eq!(v["format_version"], 2);
     let rows = v["rows"].as_array().expect("rows");
     // Default step 5 degrees over a full turn of the crank.
     assert_eq!(rows.len(), 72);
-    let mut want = [
-        "theta2", "theta3", "theta4", "mu", "cx", "cy", "omega3", "omega4", "alpha3", "alpha4",
-    ];
+    let mut want = ROW_KEYS;
     want.sort_unstable();
     for (k, row) in rows.iter().enumerate() {
         let mut keys: Vec<&str> = row
@@ -260,17 +288,19 @@ fn sweep_json_rows_have_exactly_the_documented_keys() {
                 .as_f64()
                 .unwrap_or_else(|| panic!("{key} is a number"))
         };
-        assert_relative_eq!(get("theta2"), 5.0 * k as f64, epsilon = 1e-9);
-        for key in ["theta3", "theta4"] {
+        // The vent opener's ground line is the +x axis: both references agree.
+        assert_relative_eq!(get("crank_from_ground_deg"), 5.0 * k as f64, epsilon = 1e-9);
+        assert_relative_eq!(get("crank_global_deg"), 5.0 * k as f64, epsilon = 1e-9);
+        for key in ["coupler_from_ground_deg", "output_from_ground_deg"] {
             assert!((0.0..360.0).contains(&get(key)), "{key} = {}", get(key));
         }
-        assert!((0.0..=180.0).contains(&get("mu")));
+        assert!((0.0..=180.0).contains(&get("transmission_deg")));
     }
     // At 60 rpm (2 pi rad/s) and crank angle 0: the crank pin at (25, 0) is 55 from O4,
     // so the triangle A-B-O4 has sides 70, 55, 55 and mu = acos(70 / 110) (isosceles).
     let row0 = &rows[0];
     assert_relative_eq!(
-        row0["mu"].as_f64().unwrap(),
+        row0["transmission_deg"].as_f64().unwrap(),
         (70.0f64 / 110.0).acos().to_degrees(),
         epsilon = 1e-9
     );
@@ -278,10 +308,10 @@ fn sweep_json_rows_have_exactly_the_documented_keys() {
     let fast = cli.run(&["sweep", &scenario(VENT), "--json", "--speed", "120"]);
     let f0 = &fast.expect_code(0).json()["rows"][0];
     for (key, factor) in [
-        ("omega3", 2.0),
-        ("omega4", 2.0),
-        ("alpha3", 4.0),
-        ("alpha4", 4.0),
+        ("coupler_rate_rad_s", 2.0),
+        ("output_rate_rad_s", 2.0),
+        ("coupler_accel_rad_s2", 4.0),
+        ("output_accel_rad_s2", 4.0),
     ] {
         let (a, b) = (row0[key].as_f64().unwrap(), f0[key].as_f64().unwrap());
         assert_relative_eq!(b, factor * a, epsilon = 1e-9, max_relative = 1e-12);
@@ -303,15 +333,16 @@ fn sweep_csv_file_matches_the_json_rows() {
     r.expect_code(0);
     let csv = std::fs::read_to_string(cli.path("table.csv")).expect("CSV written");
     let rows = r.json()["rows"].as_array().unwrap().clone();
-    let keys = [
-        "theta2", "theta3", "theta4", "mu", "cx", "cy", "omega3", "omega4", "alpha3", "alpha4",
-    ];
-    let mut expected = String::from(
-        "theta2_deg,theta3_deg,theta4_deg,mu_deg,cx_mm,cy_mm,omega3_rad_s,omega4_rad_s,\
-         alpha3_rad_s2,alpha4_rad_s2\n",
-    );
+    // The CSV names the coupler point's columns with the unit; the JSON gives it once.
+    let mut expected = ROW_KEYS
+        .map(|k| match k {
+            "coupler_point_x" | "coupler_point_y" => format!("{k}_mm"),
+            _ => k.to_string(),
+        })
+        .join(",");
+    expected.push('\n');
     for row in &rows {
-        let cells: Vec<String> = keys
+        let cells: Vec<String> = ROW_KEYS
             .iter()
             .map(|k| row[*k].as_f64().unwrap().to_string())
             .collect();
@@ -342,7 +373,13 @@ fn sweep_text_lists_one_line_per_grid_angle() {
     let n = json.expect_code(0).json()["rows"].as_array().unwrap().len();
     // The lifter's input rocks on two arcs of about 60.6 degrees: ~30 grid angles each.
     assert!((58..=62).contains(&n), "{n} rows");
-    assert_eq!(r.stdout.lines().count(), n + 1, "{}", r.stdout);
+    // Lines starting with '#' state the angles' reference and name each branch.
+    let table: Vec<&str> = r.stdout.lines().filter(|l| !l.starts_with('#')).collect();
+    assert_eq!(table.len(), n + 1, "{}", r.stdout);
+    assert!(r
+        .stdout
+        .starts_with("# angles: degrees counter-clockwise from the ground line"));
+    assert_eq!(r.stdout.matches("# branch ").count(), 2, "{}", r.stdout);
 }
 
 // Regression: `sweep --json` exited 0 for a design that never assembles, because the
@@ -368,8 +405,11 @@ fn a_design_that_never_assembles_exits_1() {
     }
     let v = cli.run(&["check", f, "--json"]).json();
     assert_eq!(v["assembles"], false);
-    let rows = cli.run(&["sweep", f, "--json"]).json();
-    assert_eq!(rows["rows"].as_array().map(Vec::len), Some(0));
+    // `sweep` prints no table (not even its header) before saying so.
+    for args in [vec!["sweep", f], vec!["sweep", f, "--json"]] {
+        let r = cli.run(&args);
+        assert!(r.stdout.is_empty(), "{args:?}: {}", r.stdout);
+    }
 }
 
 #[test]

@@ -21,7 +21,7 @@ fn a_closed_output_pipe_ends_quietly() {
     let stdout = child.stdout.take().unwrap();
     let mut first = String::new();
     BufReader::new(stdout).read_line(&mut first).unwrap();
-    assert!(first.contains("theta2"));
+    assert!(first.contains("angles"), "{first}");
     // The reader (and with it the pipe) is dropped here, while 36,000 rows remain to write.
     let out = child.wait_with_output().unwrap();
     let err = String::from_utf8_lossy(&out.stderr);
@@ -170,16 +170,30 @@ fn grid_angles_on_a_toggle_get_the_exact_pose_and_no_rates() {
     for (at, theta3) in [(90.0, (-3.0f64).atan2(4.0)), (270.0, 3.0f64.atan2(4.0))] {
         let hits: Vec<&serde_json::Value> = rows
             .iter()
-            .filter(|r| (r["theta2"].as_f64().unwrap() - at).abs() < 1e-6)
+            .filter(|r| (r["crank_from_ground_deg"].as_f64().unwrap() - at).abs() < 1e-6)
             .collect();
         assert_eq!(hits.len(), 1, "rows at {at} deg");
         let r = hits[0];
         let want3 = theta3.to_degrees().rem_euclid(360.0);
-        assert!((r["theta3"].as_f64().unwrap() - want3).abs() < 1e-9, "{r}");
+        assert!(
+            (r["coupler_global_deg"].as_f64().unwrap() - want3).abs() < 1e-9,
+            "{r}"
+        );
         let want4 = (want3 + 180.0).rem_euclid(360.0);
-        assert!((r["theta4"].as_f64().unwrap() - want4).abs() < 1e-9, "{r}");
-        assert!((r["mu"].as_f64().unwrap() - 180.0).abs() < 1e-9, "{r}");
-        for key in ["omega3", "omega4", "alpha3", "alpha4"] {
+        assert!(
+            (r["output_global_deg"].as_f64().unwrap() - want4).abs() < 1e-9,
+            "{r}"
+        );
+        assert!(
+            (r["transmission_deg"].as_f64().unwrap() - 180.0).abs() < 1e-9,
+            "{r}"
+        );
+        for key in [
+            "coupler_rate_rad_s",
+            "output_rate_rad_s",
+            "coupler_accel_rad_s2",
+            "output_accel_rad_s2",
+        ] {
             assert!(r[key].is_null(), "{key} at a toggle: {r}");
         }
     }
@@ -210,7 +224,7 @@ fn a_change_point_linkage_is_analysed_alike_however_it_is_turned() {
             let v = run_json(&["check", &d, "--json"]);
             let b = &v["branches"][0];
             assert_eq!(b["output_turns_fully"], false, "{angle} {assembly}: {v}");
-            let swing = b["output_swing"].as_f64().unwrap();
+            let swing = b["output_swing_deg"].as_f64().unwrap();
             assert!(
                 (swing - 180.0).abs() < 1e-6,
                 "{angle} {assembly}: swing {swing}"
@@ -232,10 +246,10 @@ fn a_negative_crank_speed_is_accepted_as_written() {
     let cw = run_json(&["sweep", design, "--json", "--speed", "-30"]);
     let (a, b) = (&ccw["rows"][3], &cw["rows"][3]);
     for (key, sign) in [
-        ("omega3", -1.0),
-        ("omega4", -1.0),
-        ("alpha3", 1.0),
-        ("alpha4", 1.0),
+        ("coupler_rate_rad_s", -1.0),
+        ("output_rate_rad_s", -1.0),
+        ("coupler_accel_rad_s2", 1.0),
+        ("output_accel_rad_s2", 1.0),
     ] {
         let (x, y) = (a[key].as_f64().unwrap(), b[key].as_f64().unwrap());
         assert!(

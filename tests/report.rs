@@ -243,12 +243,18 @@ fn check_cad(svg: &str, design: &Design, crank0_deg: f64) {
     );
 }
 
-/// Rows `crank, theta2, cx, cy, theta3, theta4, mu` of a curve export.
+/// Rows of a curve export: crank, coupler and output angles from the ground line, the
+/// transmission angle, the coupler point x and y, then crank, coupler and output directions
+/// from +x.
 fn csv_rows(text: &str) -> Vec<Vec<f64>> {
     let mut lines = text.lines();
     assert_eq!(
         lines.next(),
-        Some("crank_deg,theta2_deg,cx_mm,cy_mm,theta3_deg,theta4_deg,mu_deg")
+        Some(
+            "crank_from_ground_deg,coupler_from_ground_deg,output_from_ground_deg,\
+             transmission_deg,coupler_point_x_mm,coupler_point_y_mm,crank_global_deg,\
+             coupler_global_deg,output_global_deg"
+        )
     );
     lines
         .map(|r| r.split(',').map(|v| v.parse().unwrap()).collect())
@@ -290,8 +296,7 @@ fn path_report_from_synth_and_redrawn_by_report() {
     }
 
     // Exports: the CAD drawing at the first target and the motion every degree of crank
-    // (the crank turns fully: 360 rows; the ground line lies along +x, so the crank angles
-    // from the ground line are whole degrees).
+    // (the crank turns fully: 360 rows at whole degrees of crank from the ground line).
     for (d, design) in summary.designs.iter().zip(&designs) {
         let svg = std::fs::read_to_string(dir.join(format!("design-{}.svg", d.rank))).unwrap();
         check_cad(&svg, design, d.crank_angles[0]);
@@ -310,11 +315,11 @@ fn path_report_from_synth_and_redrawn_by_report() {
         let l = &design.linkage;
         let xs = rows
             .iter()
-            .map(|r| r[2])
+            .map(|r| r[4])
             .chain([l.input_pivot().x, l.output_pivot().x]);
         let ys = rows
             .iter()
-            .map(|r| r[3])
+            .map(|r| r[5])
             .chain([l.input_pivot().y, l.output_pivot().y]);
         let span = |v: Vec<f64>| {
             v.iter().copied().fold(f64::NEG_INFINITY, f64::max)
@@ -410,7 +415,7 @@ fn motion_report_draws_frames_at_every_pose() {
         assert!(rows.len() > 2);
         if !design.linkage.grashof().input_turns_fully() {
             for end in [&rows[0], &rows[rows.len() - 1]] {
-                assert!(end[6].min(180.0 - end[6]) < 1e-3, "toggle mu {}", end[6]);
+                assert!(end[3].min(180.0 - end[3]) < 1e-3, "toggle mu {}", end[3]);
             }
         }
         let svg = std::fs::read_to_string(dir.join(format!("design-{}.svg", d.rank))).unwrap();

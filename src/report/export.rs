@@ -3,10 +3,10 @@
 
 use nalgebra::Point2;
 
-use super::curves::pose_mu;
+use super::deg_wrapped;
 use super::draw::{footprint, Joints};
 use super::style::esc;
-use super::{deg, deg_wrapped};
+use super::table::{header_unit, PoseAngles};
 use crate::kinematics::position::Pose;
 use crate::linkage::FourBar;
 
@@ -99,16 +99,18 @@ pub fn cad_svg(linkage: &FourBar, pose: &Pose, units: &str) -> String {
         esc(units)
     ));
     s.push_str(&format!(
-        "  <desc>Kinematic layout only. y is negated (svg y = -y). ground {} crank {} coupler {} output {} coupler point p {} q {}; crank angle {} deg, coupler {} deg, output {} deg (counter-clockwise from +x).</desc>\n",
+        "  <desc>Kinematic layout only. y is negated (svg y = -y). ground {} crank {} coupler {} output {} coupler point p {} q {}; crank at {} deg from the ground line O2-O4; directions counter-clockwise from +x: ground {} deg, crank {} deg, coupler {} deg, output {} deg.</desc>\n",
         full(r1),
         full(r2),
         full(r3),
         full(r4),
         full(cp.p),
         full(cp.q),
-        deg(pose.theta2),
-        deg(pose.theta3),
-        deg(pose.theta4)
+        deg_wrapped(pose.theta2 - linkage.ground_angle()),
+        deg_wrapped(linkage.ground_angle()),
+        deg_wrapped(pose.theta2),
+        deg_wrapped(pose.theta3),
+        deg_wrapped(pose.theta4)
     ));
     s.push_str(&format!(
         "  <g id=\"linkage\" fill=\"none\" stroke=\"#000000\" stroke-width=\"{}\" stroke-linecap=\"round\" stroke-linejoin=\"round\">\n",
@@ -134,43 +136,23 @@ pub fn cad_svg(linkage: &FourBar, pose: &Pose, units: &str) -> String {
     s
 }
 
-/// A unit label made safe for a CSV header (letters and digits kept, others become `_`).
-fn header_unit(units: &str) -> String {
-    let u: String = units
-        .chars()
-        .map(|c| if c.is_ascii_alphanumeric() { c } else { '_' })
-        .collect();
-    if u.is_empty() {
-        "units".to_owned()
-    } else {
-        u
-    }
-}
-
-/// The motion as CSV, one row per pose in the given order: crank angle from the ground line
-/// `O2 -> O4` (`crank_deg`, the angle the targets are tied to), global crank angle
-/// (`theta2_deg`), coupler point `x`, `y` in `units`, coupler and output angles and the
-/// transmission angle. Angles in degrees, `[0, 360)` (`mu` in `[0, 180]`). Poses with
-/// non-finite angles are skipped.
+/// The motion as CSV, one row per pose in the given order: the angles by role (crank,
+/// coupler and output from the ground line `O2 -> O4`, the transmission angle), the coupler
+/// point `x`, `y` in `units`, then the link directions from the +x axis for CAD; the columns
+/// of [`sweep`](super::table::rows_to_csv) without the branch and the rates (see
+/// [`PoseAngles`] for the references). Angles in degrees, `[0, 360)` (`transmission_deg` in
+/// `[0, 180]`). Poses with non-finite angles are skipped.
 pub fn csv_curve(linkage: &FourBar, poses: &[Pose], units: &str) -> String {
     let u = header_unit(units);
-    let mut s = format!("crank_deg,theta2_deg,cx_{u},cy_{u},theta3_deg,theta4_deg,mu_deg\n");
-    let t1 = linkage.ground_angle();
+    let (a, b) = PoseAngles::CSV_HEADS;
+    let mut s = format!("{a},coupler_point_x_{u},coupler_point_y_{u},{b}\n");
     for p in poses {
         let c = linkage.coupler_point_at(p.theta2, p.theta3);
         if !(c.x.is_finite() && c.y.is_finite() && p.theta4.is_finite()) {
             continue;
         }
-        s.push_str(&format!(
-            "{},{},{},{},{},{},{}\n",
-            deg_wrapped(p.theta2 - t1),
-            deg_wrapped(p.theta2),
-            full(c.x),
-            full(c.y),
-            deg_wrapped(p.theta3),
-            deg_wrapped(p.theta4),
-            deg(pose_mu(p))
-        ));
+        let (x, y) = PoseAngles::of(linkage, p).csv_cells();
+        s.push_str(&format!("{x},{},{},{y}\n", full(c.x), full(c.y)));
     }
     s
 }
@@ -254,7 +236,8 @@ mod tests {
     }
 
     // Columns against independent closed forms: coupler point from FourBar, transmission
-    // angle from the law of cosines on triangle A-B-O4 (FourBar::transmission_angle).
+    // angle from the law of cosines on triangle A-B-O4 (FourBar::transmission_angle), and
+    // each angle from the ground line equal to its global direction less the ground line's.
     #[test]
     fn csv_rows_match_the_closed_forms() {
         let l = crank_rocker();
@@ -264,21 +247,35 @@ mod tests {
         let mut lines = csv.lines();
         assert_eq!(
             lines.next(),
-            Some("crank_deg,theta2_deg,cx_m_m,cy_m_m,theta3_deg,theta4_deg,mu_deg")
+            Some(
+                "crank_from_ground_deg,coupler_from_ground_deg,output_from_ground_deg,\
+                 transmission_deg,coupler_point_x_m_m,coupler_point_y_m_m,crank_global_deg,\
+                 coupler_global_deg,output_global_deg"
+            )
         );
         let rows: Vec<Vec<f64>> = lines
             .map(|r| r.split(',').map(|v| v.parse().unwrap()).collect())
             .collect();
         assert_eq!(rows.len(), poses.len());
+        let t1 = l.ground_angle().to_degrees();
         for (r, p) in rows.iter().zip(&poses) {
             let c = l.coupler_point_at(p.theta2, p.theta3);
-            assert_relative_eq!(r[2], c.x, max_relative = 1e-15);
-            assert_relative_eq!(r[3], c.y, max_relative = 1e-15);
+            assert_relative_eq!(r[4], c.x, max_relative = 1e-15);
+            assert_relative_eq!(r[5], c.y, max_relative = 1e-15);
             let mu = l.transmission_angle(p.theta2).unwrap().to_degrees();
-            assert_relative_eq!(r[6], mu, epsilon = 1e-7);
-            let crank = (r[1] - l.ground_angle().to_degrees()).rem_euclid(360.0);
-            assert_relative_eq!(r[0], crank, epsilon = 1e-7);
-            assert!((0.0..360.0).contains(&r[4]) && (0.0..360.0).contains(&r[5]));
+            assert_relative_eq!(r[3], mu, epsilon = 1e-7);
+            for (from_ground, global, exact) in
+                [(0, 6, p.theta2), (1, 7, p.theta3), (2, 8, p.theta4)]
+            {
+                let g = exact.to_degrees().rem_euclid(360.0);
+                assert!(
+                    (r[global] - g).abs() < 1e-7 || (r[global] - g).abs() > 360.0 - 1e-7,
+                    "{r:?}"
+                );
+                let d = (r[from_ground] - (r[global] - t1)).rem_euclid(360.0);
+                assert!(!(1e-7..=360.0 - 1e-7).contains(&d), "{r:?}");
+                assert!((0.0..360.0).contains(&r[from_ground]));
+            }
         }
     }
 }

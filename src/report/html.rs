@@ -1241,7 +1241,7 @@ fn design_section(h: &mut String, s: &Summary, d: &DesignSummary, design: &Desig
     let _ = writeln!(
         h,
         "<p class=\"files\">Files: <a href=\"{cad}\">{cad}</a> (the linkage at position 1 for CAD, 1 user unit = 1 {u}) · \
-         <a href=\"{csv}\">{csv}</a> (crank angle, coupler point, θ3, θ4 and μ every {MOTION_STEP_DEG}° of crank)</p>\n</section>",
+         <a href=\"{csv}\">{csv}</a> (crank, coupler and output angles from the ground line, μ, the coupler point, and the link directions from +x, every {MOTION_STEP_DEG}° of crank from the ground line)</p>\n</section>",
         cad = cad_file(r),
         csv = curve_file(r)
     );

@@ -16,7 +16,7 @@ use super::plots::AngleSample;
 use crate::design::Design;
 use crate::kinematics::position::{position_at, NewtonOptions, Pose};
 use crate::kinematics::range::{wrap_pi, Arc};
-use crate::kinematics::sweep::{sweep, Branch, Sweep, SweepOptions};
+use crate::kinematics::sweep::{sweep_from, Branch, Sweep, SweepOptions};
 use crate::scenario::FunctionFile;
 use crate::synthesis::output::DesignSummary;
 
@@ -53,7 +53,14 @@ impl Study {
     /// Works out the drawing data of `design` with the result record `summary`.
     pub fn new(design: &Design, summary: &DesignSummary) -> Self {
         let l = &design.linkage;
-        let sw = sweep(l, MOTION_STEP_DEG.to_radians(), &SweepOptions::default());
+        // A grid of crank angles from the ground line: whole degrees of the crank angle
+        // every file states (the curve export's rows, the angle plot's samples).
+        let sw = sweep_from(
+            l,
+            MOTION_STEP_DEG.to_radians(),
+            l.ground_angle(),
+            &SweepOptions::default(),
+        );
         let drawn = drawn_cranks(summary);
         let first = drawn.first().map(|c| c.to_radians());
         let branch = targets_branch(&sw, first);
@@ -345,7 +352,7 @@ mod tests {
             Assembly::Open,
         )
         .unwrap();
-        let sw = sweep(&l, 1f64.to_radians(), &SweepOptions::default());
+        let sw = sweep_from(&l, 1f64.to_radians(), 0.0, &SweepOptions::default());
         assert_eq!(sw.branches.len(), 2);
         for b in &sw.branches {
             let (s, e) = b.toggles.unwrap();
