@@ -177,6 +177,15 @@ impl StructuredJacobian {
         &mut self.pair_derivatives[k]
     }
 
+    /// Each pair row: its index among the pair rows, its two targets and its derivatives.
+    fn pair_rows(&self) -> impl Iterator<Item = (usize, (usize, usize), (f64, f64))> + '_ {
+        self.pair_targets
+            .iter()
+            .zip(&self.pair_derivatives)
+            .enumerate()
+            .map(|(k, (&t, &d))| (k, t, d))
+    }
+
     /// The gradient `J^T r` of half the sum of squares, for residuals `r` in this Jacobian's
     /// row order.
     ///
@@ -203,12 +212,7 @@ impl StructuredJacobian {
             }
         }
         let base = base + self.global.nrows();
-        for (k, (&(i, j), &(di, dj))) in self
-            .pair_targets
-            .iter()
-            .zip(&self.pair_derivatives)
-            .enumerate()
-        {
+        for (k, (i, j), (di, dj)) in self.pair_rows() {
             g[p + i] += di * r[base + k];
             g[p + j] += dj * r[base + k];
         }
@@ -232,12 +236,7 @@ impl StructuredJacobian {
         j.view_mut((base, 0), (self.global.nrows(), p))
             .copy_from(&self.global);
         let base = base + self.global.nrows();
-        for (k, (&(i, jj), &(di, dj))) in self
-            .pair_targets
-            .iter()
-            .zip(&self.pair_derivatives)
-            .enumerate()
-        {
+        for (k, (i, jj), (di, dj)) in self.pair_rows() {
             j[(base + k, p + i)] += di;
             j[(base + k, p + jj)] += dj;
         }
@@ -327,7 +326,7 @@ impl StructuredNormal {
         }
         let mut v_off = vec![0.0; n.saturating_sub(1)];
         let mut v_corner = 0.0;
-        for (&(i, j), &(di, dj)) in jac.pair_targets.iter().zip(&jac.pair_derivatives) {
+        for (_, (i, j), (di, dj)) in jac.pair_rows() {
             v_diag[i] += di * di;
             v_diag[j] += dj * dj;
             if !(free_target[i] && free_target[j]) {
