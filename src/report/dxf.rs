@@ -125,8 +125,9 @@ pub enum CadLayer {
     CouplerCurve,
     /// `targets`: per target a point entity at the target, a diamond about it and its number.
     Targets,
-    /// `notes`: text under the drawing: the crank angle with its reference, the dimensions,
-    /// and the caution that this is kinematics only.
+    /// `notes`: text under the drawing, in lines of at most [`NOTE_COLUMNS`] characters:
+    /// the crank angle with its reference, the dimensions, and the caution that this is
+    /// kinematics only.
     Notes,
 }
 
@@ -283,6 +284,25 @@ impl Sheet {
     }
 }
 
+/// Characters per line of the notes under the drawing.
+pub const NOTE_COLUMNS: usize = 64;
+
+/// `text` broken into lines of at most `columns` characters at spaces (a longer word stands
+/// alone on its line).
+fn word_wrap(text: &str, columns: usize) -> Vec<String> {
+    let mut lines: Vec<String> = Vec::new();
+    for word in text.split_whitespace() {
+        match lines.last_mut() {
+            Some(line) if line.chars().count() + 1 + word.chars().count() <= columns => {
+                line.push(' ');
+                line.push_str(word);
+            }
+            _ => lines.push(word.to_owned()),
+        }
+    }
+    lines
+}
+
 /// The runs of finite points of a curve branch.
 fn finite_runs(branch: &[Point2<f64>]) -> Vec<&[Point2<f64>]> {
     branch
@@ -364,22 +384,26 @@ fn drawing(sheet: &CadSheet) -> Result<Drawing, DxfExportError> {
         );
     }
     let h = TEXT_HEIGHT * r;
-    let [r1, r2, r3, r4] = l.lengths();
+    let [r1, r2, r3, r4] = l.lengths().map(super::round9);
     let cp = l.coupler_point();
     let notes = [
         format!(
-            "four-bar linkage, crank at {} deg from the ground line O2->O4 (the ground line at {} deg from +x)",
+            "four-bar linkage, crank at {} deg from the ground line O2->O4 (the ground line at {} deg from +x, counter-clockwise)",
             super::round9(sheet.crank_deg),
-            super::deg(l.ground_angle())
+            super::deg_wrapped(l.ground_angle())
         ),
         format!(
             "ground {r1} crank {r2} coupler {r3} output {r4}, coupler point p {} q {} ({})",
-            cp.p, cp.q, sheet.units
+            super::round9(cp.p),
+            super::round9(cp.q),
+            sheet.units
         ),
         crate::SAFETY_NOTE.to_owned(),
     ];
     let mut at = Point2::new(lo.x, lo.y - 2.0 * h - r);
-    for line in notes {
+    let mut widest = 0usize;
+    for line in notes.iter().flat_map(|n| word_wrap(n, NOTE_COLUMNS)) {
+        widest = widest.max(line.chars().count());
         s.text(CadLayer::Notes, at, h, line);
         at.y -= 1.6 * h;
     }
@@ -393,7 +417,9 @@ fn drawing(sheet: &CadSheet) -> Result<Drawing, DxfExportError> {
         _ => DrawingUnits::Metric,
     };
     d.header.minimum_drawing_extents = dxf::Point::new(lo.x - r, at.y, 0.0);
-    d.header.maximum_drawing_extents = dxf::Point::new(hi.x + r, hi.y + r + 2.0 * h, 0.0);
+    // Text is at most one text height wide per character in the common CAD fonts.
+    let right = (hi.x + r).max(lo.x + widest as f64 * h);
+    d.header.maximum_drawing_extents = dxf::Point::new(right, hi.y + r + 2.0 * h, 0.0);
     d.add_line_type(LineType {
         name: DOTS_LINE_TYPE.to_owned(),
         description: "dots".to_owned(),
@@ -615,8 +641,10 @@ mod tests {
                 _ => None,
             })
             .collect();
-        assert!(notes[0].contains("crank at 63 deg from the ground line O2->O4"));
-        assert!(notes.iter().any(|n| n == crate::SAFETY_NOTE));
+        assert!(notes.iter().all(|n| n.chars().count() <= NOTE_COLUMNS));
+        let joined = notes.join(" ");
+        assert!(joined.contains("crank at 63 deg from the ground line O2->O4"));
+        assert!(joined.contains(crate::SAFETY_NOTE));
     }
 
     // $INSUNITS codes of the DXF reference (AutoCAD DXF Reference, HEADER section:
@@ -774,6 +802,17 @@ mod tests {
         let text = std::fs::read_to_string(&ok).unwrap();
         assert!(text.contains("AC1015") && text.ends_with("EOF\r\n"));
         assert_eq!(std::fs::read_dir(dir.path()).unwrap().count(), 1);
+    }
+
+    // Lines break at spaces within the width; a word longer than the width stands alone.
+    #[test]
+    fn notes_wrap_at_spaces() {
+        assert_eq!(
+            word_wrap("aa bb  cc dddddd e", 5),
+            ["aa bb", "cc", "dddddd", "e"]
+        );
+        assert_eq!(word_wrap("aa bb", 5), ["aa bb"]);
+        assert!(word_wrap("   ", 5).is_empty());
     }
 
     // The export's errors cross threads like every library error.
