@@ -32,13 +32,16 @@
 
 pub mod animate;
 pub mod check;
+pub mod colour;
 pub mod curves;
 pub mod draw;
+pub mod dxf;
 pub mod export;
 pub mod files;
 mod frame;
 pub mod html;
 mod legend;
+pub mod palette;
 pub mod plots;
 mod study;
 pub mod style;
